@@ -1,0 +1,174 @@
+"""Fields: values at integration points (GaussField) and at nodes (NodalField)."""
+from __future__ import annotations
+
+import numpy as np
+
+from .elements import QuadratureRule
+from .mesh import Mesh
+
+__all__ = ["GaussField", "NodalField", "STRESS_2D", "STRESS_3D"]
+
+STRESS_2D = ("sxx", "syy", "sxy")
+STRESS_3D = ("sxx", "syy", "szz", "sxy", "syz", "sxz")
+
+
+def _readonly(a):
+    a = np.ascontiguousarray(a)
+    a.setflags(write=False)
+    return a
+
+
+class GaussField:
+    """Values at the integration points of every cell.
+
+    Parameters
+    ----------
+    mesh : Mesh
+    values : dict ``{block name: array (cells, points, components)}``; every
+        block of the mesh must be present (nothing is silently left out).
+    components : sequence of str, e.g. ``("sxx", "syy", "sxy")``
+    points : where the values sit, per block (a dict) or one spec for all:
+        ``"full"`` (default) or ``"reduced"`` (the element's rules, in their
+        documented order), a point count, a :class:`QuadratureRule`, or
+        natural coordinates (points, dim).
+    name : str, a label such as ``"stress"``.
+    """
+
+    def __init__(self, mesh: Mesh, values, components, points="full", name="field"):
+        if not isinstance(mesh, Mesh):
+            raise ValueError("GaussField needs a Mesh as its first argument")
+        self.mesh = mesh
+        components = tuple(str(c) for c in components)
+        if not components or len(set(components)) != len(components):
+            raise ValueError(f"components must be distinct names, got {components}")
+        self.components = components
+        self.name = str(name)
+        if not isinstance(values, dict):
+            raise ValueError("values must be a dict {block name: array (cells, points, components)}")
+        given = {mesh.block(k).name: v for k, v in values.items()}
+        missing = [b.name for b in mesh.blocks if b.name not in given]
+        if missing:
+            raise ValueError(f"values missing for block(s) {', '.join(missing)}")
+        self.values: dict[str, np.ndarray] = {}
+        self.points: dict[str, np.ndarray] = {}
+        self.rule_labels: dict[str, str] = {}
+        for b in mesh.blocks:
+            spec = points.get(b.name, points.get(b.element.name, "full")) if isinstance(points, dict) else points
+            pts, label = self._resolve_points(b, spec)
+            v = np.asarray(given[b.name], dtype=float)
+            want = (len(b), len(pts), len(components))
+            if v.ndim == 2 and len(components) == 1:
+                v = v[..., None]
+            if v.shape != want:
+                raise ValueError(f"block {b.name}: values shaped {v.shape}, expected (cells, points, components) "
+                                 f"= {want} for {label}")
+            bad = ~np.isfinite(v)
+            if bad.any():
+                c, q, a = (int(i[0]) for i in np.nonzero(bad))
+                raise ValueError(f"{b.label(c)}: value of {components[a]} at point {q} is {v[c, q, a]} "
+                                 f"({int(bad.sum())} non-finite values in the block)")
+            self.values[b.name] = _readonly(v)
+            self.points[b.name] = _readonly(pts)
+            self.rule_labels[b.name] = label
+
+    @staticmethod
+    def _resolve_points(b, spec):
+        et = b.element
+        if isinstance(spec, (str, int, np.integer, QuadratureRule)):
+            r = et.rule(spec)
+            return r.points, r.name
+        pts = et._check_points(spec)
+        inside = et.contains(pts, tol=1e-6)
+        if not inside.all():
+            raise ValueError(f"block {b.name}: integration point {int(np.flatnonzero(~inside)[0])} lies outside "
+                             f"the reference {et.shape}")
+        return pts, f"{len(pts)} given points"
+
+    @property
+    def ncomponents(self) -> int:
+        return len(self.components)
+
+    def component(self, name) -> dict[str, np.ndarray]:
+        """One component per block, (cells, points)."""
+        a = self.components.index(name)
+        return {k: v[..., a] for k, v in self.values.items()}
+
+    def physical_points(self) -> dict[str, np.ndarray]:
+        """Coordinates of every value, per block (cells, points, dim)."""
+        return {k: self.mesh.geometry(k, self.points[k]).x_cqi for k in self.values}
+
+    def __repr__(self):
+        parts = ", ".join(f"{k}: {v.shape[0]}x{v.shape[1]} at {self.rule_labels[k]}" for k, v in self.values.items())
+        return f"GaussField({self.name!r}, components {self.components}, {parts})"
+
+
+class NodalField:
+    """A continuous field: one value per (node, region) row.
+
+    For a mesh with one region (or a field smoothed across regions) there is
+    one row per used node, in node order, so ``values`` is (n, components).
+    Where a field is not smoothed across region boundaries, a node shared by
+    two regions has one row for each; ``split_nodes`` lists them.
+
+    Attributes
+    ----------
+    values : (rows, components)
+    node : (rows,) node row numbers
+    region : (rows,) region ids (``-1``: smoothed across all regions)
+    components, method, info (solver details such as iterations)
+    """
+
+    def __init__(self, mesh: Mesh, values, components, node, region, method="", info=None):
+        self.mesh = mesh
+        self.values = _readonly(np.asarray(values, dtype=float))
+        self.components = tuple(components)
+        self.node = _readonly(np.asarray(node, dtype=np.int64))
+        self.region = _readonly(np.asarray(region, dtype=np.int64))
+        self.method = method
+        self.info = dict(info or {})
+        r = len(self.node)
+        if self.values.shape != (r, len(self.components)) or self.region.shape != (r,):
+            raise ValueError(f"NodalField: values {self.values.shape}, node {self.node.shape}, region "
+                             f"{self.region.shape} do not match {len(self.components)} components")
+
+    @property
+    def split_nodes(self) -> np.ndarray:
+        """Nodes that carry more than one value (one per region)."""
+        counts = np.bincount(self.node, minlength=self.mesh.nnodes)
+        return np.flatnonzero(counts > 1)
+
+    @property
+    def unused_nodes(self) -> np.ndarray:
+        """Nodes that belong to no cell and so carry no value."""
+        counts = np.bincount(self.node, minlength=self.mesh.nnodes)
+        return np.flatnonzero(counts == 0)
+
+    def to_array(self, region=None) -> np.ndarray:
+        """Values as (n, components) in node order.  With ``region`` given,
+        that region's values (NaN for nodes outside it).  Without it, every
+        node must carry exactly one value; nodes in no cell are NaN."""
+        out = np.full((self.mesh.nnodes, len(self.components)), np.nan)
+        if region is None:
+            if self.split_nodes.size:
+                raise ValueError(f"{self.split_nodes.size} nodes carry one value per region "
+                                 "(not smoothed across region boundaries): pass region=...")
+            out[self.node] = self.values
+        else:
+            sel = self.region == region
+            if not sel.any():
+                raise ValueError(f"no values for region {region}; regions here: {np.unique(self.region).tolist()}")
+            out[self.node[sel]] = self.values[sel]
+        return out
+
+    def component(self, name, region=None) -> np.ndarray:
+        return self.to_array(region)[:, self.components.index(name)]
+
+    def __repr__(self):
+        s = (f"NodalField({self.method or 'nodal'}: {len(self.node)} rows x {len(self.components)} "
+             f"components {self.components}")
+        if self.split_nodes.size:
+            s += (f"; {self.split_nodes.size} nodes on region boundaries carry one value per region "
+                  "(not smoothed across regions)")
+        if self.unused_nodes.size:
+            s += f"; {self.unused_nodes.size} nodes in no cell have no value"
+        return s + ")"
