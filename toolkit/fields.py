@@ -163,6 +163,30 @@ class NodalField:
     def component(self, name, region=None) -> np.ndarray:
         return self.to_array(region)[:, self.components.index(name)]
 
+    def cell_rows(self, block) -> np.ndarray:
+        """Rows of ``values`` that belong to each cell's nodes, (m, k): the
+        row of (node, the cell's region), or of the node alone when the field
+        is smoothed across regions.  Evaluate the field inside cell ``c``
+        with ``N @ values[cell_rows[c]]``."""
+        b = self.mesh.block(block)
+        if np.all(self.region == self.region[0]) and len(self.node) == len(np.unique(self.node)):
+            lookup = np.full(self.mesh.nnodes, -1, dtype=np.int64)
+            lookup[self.node] = np.arange(len(self.node))
+            rows = lookup[b.cells]
+        else:
+            regions = np.unique(self.region)
+            R = len(regions)
+            keys = self.node * R + np.searchsorted(regions, self.region)
+            order = np.argsort(keys)
+            want = b.cells.astype(np.int64) * R + np.searchsorted(regions, b.regions)[:, None]
+            pos = np.clip(np.searchsorted(keys[order], want), 0, len(keys) - 1)
+            rows = order[pos]
+            rows = np.where(keys[rows] == want, rows, -1)
+        if (rows < 0).any():
+            c = int(np.flatnonzero((rows < 0).any(axis=1))[0])
+            raise ValueError(f"{b.label(c)}: the nodal field has no value for some of its nodes")
+        return rows
+
     def __repr__(self):
         s = (f"NodalField({self.method or 'nodal'}: {len(self.node)} rows x {len(self.components)} "
              f"components {self.components}")

@@ -8,8 +8,16 @@ NodalField``:
   i.e. solve ``C a = b`` with ``C = Σ_e ∫ N^T N dΩ`` and ``b = Σ_e ∫ N^T G dΩ``,
   one column per component, all columns at once.  ``G`` is each element's
   local field, the polynomial through its integration-point values.
-* ``project_l2(field, lumped=True)`` — the same right-hand side with the
-  diagonal HRZ-lumped matrix (Hinton, Rock & Zienkiewicz 1976).
+* ``project_l2(field, lumped=True)`` — the projection with the inner product
+  evaluated by the HRZ nodal quadrature (Hinton, Rock & Zienkiewicz 1976):
+  the mass matrix becomes the diagonal of HRZ masses m_a^e (every one
+  positive) and the right-hand side the same quadrature of the local field,
+  b_a = Σ_e m_a^e G_e(x_a).  So each nodal value is the HRZ-weighted mean of
+  the cells' local fields at that node; constants (and linear fields, where
+  the local field is linear) are reproduced.  Pairing the lumped matrix with
+  the consistent right-hand side instead fails even for constants on quad8
+  and tri6, whose corner shape functions integrate to a negative value or
+  zero.
 * :func:`average_nodal` — extrapolate each element's values to its nodes with
   its local field, then average at shared nodes (the common baseline).
 
@@ -142,43 +150,56 @@ def rhs_rule(element, npoints: int):
 # ---------------------------------------------------------------------------
 def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None):
     """Jacobi-preconditioned conjugate gradients for every column of ``B`` at
-    once (each column keeps its own step lengths; the matrix products are
-    shared).  Stops each column when ``||b - A x|| <= rtol ||b||``.
+    once (each column keeps its own step lengths; the matrix is shared).
+    Stops each column when ``||b - A x|| <= rtol ||b||``.
 
-    Returns ``X, iterations (per column), relative residuals (per column)``.
+    Internally the columns are stored as rows (components, n), so every
+    vector operation runs over long contiguous arrays.
+
+    Returns ``X (n, columns), iterations (per column), relative residuals``.
     Raises ``RuntimeError`` if a column has not converged after ``maxiter``.
     """
-    B = np.asarray(B, dtype=float)
-    n, ncol = B.shape
-    X = np.zeros_like(B) if x0 is None else np.array(x0, dtype=float)
+    B = np.ascontiguousarray(np.asarray(B, dtype=float).T)          # (c, n)
+    ncol, n = B.shape
     maxiter = maxiter or max(200, 10 * int(np.sqrt(n)))
-    dinv = dinv[:, None]
-    R = B - A @ X if x0 is not None else B.copy()
+
+    def matvec(V, out):
+        for i in range(ncol):
+            out[i] = A @ V[i]
+        return out
+
+    X = np.zeros_like(B) if x0 is None else np.ascontiguousarray(np.asarray(x0, dtype=float).T)
+    R = B - matvec(X, np.empty_like(B)) if x0 is not None else B.copy()
     Z = R * dinv
     P = Z.copy()
-    rz = np.einsum("ij,ij->j", R, Z)
-    bnorm = np.sqrt(np.einsum("ij,ij->j", B, B))
+    Q = np.empty_like(B)
+    tmp = np.empty_like(B)
+
+    def dots(U, V):
+        return np.einsum("ij,ij->i", U, V)
+
+    rz = dots(R, Z)
+    bnorm = np.sqrt(dots(B, B))
     target = rtol * bnorm
-    rnorm = np.sqrt(np.einsum("ij,ij->j", R, R))
+    rnorm = np.sqrt(dots(R, R))
     done = rnorm <= target
     iters = np.zeros(ncol, dtype=int)
-    tmp = np.empty_like(B)
     for _ in range(maxiter):
         if done.all():
             break
-        Q = A @ P
-        pq = np.einsum("ij,ij->j", P, Q)
-        alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))
+        matvec(P, Q)
+        pq = dots(P, Q)
+        alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))[:, None]
         np.multiply(P, alpha, out=tmp)
         X += tmp
         np.multiply(Q, alpha, out=tmp)
         R -= tmp
-        rnorm = np.sqrt(np.einsum("ij,ij->j", R, R))
+        rnorm = np.sqrt(dots(R, R))
         iters[~done] += 1
         done = done | (rnorm <= target)
         np.multiply(R, dinv, out=Z)
-        rz_new = np.einsum("ij,ij->j", R, Z)
-        beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))
+        rz_new = dots(R, Z)
+        beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))[:, None]
         rz = rz_new
         P *= beta
         P += Z
@@ -188,7 +209,43 @@ def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None):
                            f"column(s) {bad.tolist()} (relative residual "
                            f"{(rnorm[bad] / np.where(bnorm[bad] == 0, 1, bnorm[bad])).max():.3g})")
     rel = rnorm / np.where(bnorm == 0, 1.0, bnorm)
-    return X, iters, rel
+    return X.T, iters, rel
+
+
+def _assemble_csr(scatters, cell_dofs, element_matrices, ndof):
+    """Assemble element matrices (m, k*k) into one CSR matrix.
+
+    The scatter matrices (ndof, m*k) in CSC form turn into CSR with a
+    counting sort (linear time, in C), which lists for every unknown the
+    (cell, local node) slots that touch it; each slot contributes one row of
+    its element matrix.  Duplicate columns are then summed by scipy.  This
+    avoids building and sorting full COO triplets.
+    """
+    indptr_parts, ind_parts, dat_parts = [], [], []
+    for S, dofs, Me in zip(scatters, cell_dofs, element_matrices):
+        m, k = dofs.shape
+        Sr = S.tocsr()                                   # rows: unknowns; columns: slots c*k + a
+        slots = Sr.indices
+        c, a = np.divmod(slots, k)
+        ind_parts.append(dofs[c])                        # (m*k, k) columns of each slot's row
+        dat_parts.append(Me.reshape(m, k, k)[c, a])      # (m*k, k)
+        indptr_parts.append(np.diff(Sr.indptr) * k)
+    if len(ind_parts) == 1:
+        counts = indptr_parts[0]
+        ind = ind_parts[0].ravel()
+        dat = dat_parts[0].ravel()
+    else:
+        # several blocks: concatenate and let COO sort them out
+        rows = np.concatenate([np.repeat(np.arange(ndof), cnt) for cnt in indptr_parts])
+        ind = np.concatenate([i.ravel() for i in ind_parts])
+        dat = np.concatenate([d.ravel() for d in dat_parts])
+        return sp.coo_matrix((dat, (rows, ind)), shape=(ndof, ndof)).tocsr()   # sums duplicates
+    idx_t = np.int32 if ind.size < 2**31 and ndof < 2**31 else np.int64
+    indptr = np.zeros(ndof + 1, dtype=idx_t)
+    np.cumsum(counts, out=indptr[1:])
+    M = sp.csr_matrix((dat, ind.astype(idx_t, copy=False), indptr), shape=(ndof, ndof))
+    M.sum_duplicates()
+    return M
 
 
 # ---------------------------------------------------------------------------
@@ -201,8 +258,8 @@ class L2Projector:
     ----------
     mesh : Mesh
     lumped : bool
-        Use the HRZ-lumped diagonal mass matrix (every nodal mass positive)
-        instead of the consistent one.
+        Use HRZ nodal quadrature (diagonal, every nodal mass positive; see
+        the module notes) instead of the consistent mass matrix.
     across_regions : bool
         Smooth across region boundaries (default: one value per region at
         shared nodes).
@@ -244,14 +301,17 @@ class L2Projector:
             self.dofs = base
         self._scatter = {b.name: self.dofs.scatter(b.name) for b in mesh.blocks}
         self._rhs_cache: dict = {}
+        self._hrz: dict = {}
         self._assemble()
         self.setup_time = time.perf_counter() - t0
 
     # -- assembly ------------------------------------------------------------
     def _assemble(self):
+        """Mass matrix C = Σ_e ∫ N^T N dΩ (consistent) and its HRZ-lumped
+        diagonal (each cell's diagonal scaled to the cell's measure)."""
         ndof = self.dofs.ndof
         diag_hrz = np.zeros(ndof)
-        rows, cols, vals = [], [], []
+        scatters, cell_dofs, matrices = [], [], []
         for b in self.mesh.blocks:
             g = self.mesh.geometry(b.name, "mass")
             N = g.N_qk
@@ -262,19 +322,17 @@ class L2Projector:
             d = Me[:, dpos]
             hrz = d * (g.dV_cq.sum(axis=1) / d.sum(axis=1))[:, None]  # HRZ: diagonal scaled to the cell's measure
             diag_hrz += self._scatter[b.name] @ hrz.ravel()
+            self._hrz[b.name] = hrz
             if not self.lumped:
-                dofs = self.dofs.cell_dofs[b.name]
-                m = len(dofs)
-                rows.append(np.broadcast_to(dofs[:, :, None], (m, k, k)).ravel())
-                cols.append(np.broadcast_to(dofs[:, None, :], (m, k, k)).ravel())
-                vals.append(Me.ravel())
+                scatters.append(self._scatter[b.name])
+                cell_dofs.append(self.dofs.cell_dofs[b.name])
+                matrices.append(Me)
         self.lumped_diagonal = diag_hrz
         if self.lumped:
             self.matrix = None
             self.diagonal = diag_hrz
             return
-        M = sp.coo_matrix((np.concatenate(vals), (np.concatenate(rows), np.concatenate(cols))),
-                          shape=(ndof, ndof)).tocsr()
+        M = _assemble_csr(scatters, cell_dofs, matrices, ndof)
         self.matrix = M
         self.diagonal = M.diagonal()
         self._factor = None
@@ -300,9 +358,17 @@ class L2Projector:
         return op
 
     def rhs(self, field: GaussField) -> np.ndarray:
-        """``b = Σ_e ∫ N^T G dΩ`` for every component (ndof, components)."""
+        """``b = Σ_e ∫ N^T G dΩ`` for every component (ndof, components);
+        with ``lumped`` the HRZ nodal quadrature ``Σ_e m_a^e G_e(x_a)``."""
         self._check_field(field)
         b = np.zeros((self.dofs.ndof, field.ncomponents))
+        if self.lumped:
+            for name, V in field.values.items():
+                et = self.mesh.block(name).element
+                E = local_field_matrix(et, field.points[name], et.nodes)     # (k, q)
+                ve = np.matmul(E, V) * self._hrz[name][:, :, None]            # (c, k, a)
+                b += self._scatter[name] @ ve.reshape(-1, field.ncomponents)
+            return b
         for name, V in field.values.items():
             E, N, dV = self._rhs_operator(name, field.points[name])
             G = V if E is None else np.matmul(E, V)                   # (c, r, a)

@@ -1,0 +1,456 @@
+"""Static and fatigue checks, S-N curves by FAT class.
+
+Fatigue follows the IIW recommendations (A. Hobbacher (ed.), *Recommendations
+for Fatigue Design of Welded Joints and Components*, IIW document
+XIII-2460-13, 2nd edition 2016): S-N curves ``N = 2e6 (FAT/Δσ)^m``, the
+thickness correction ``f(t) = (t_ref/t_eff)^n`` and the Palmgren–Miner sum
+with partial safety factors on actions (γF) and resistance (γM).  Curve data
+live in ``data/sn_curves.json`` (source described in ``data/SOURCES.md``).
+
+Every check returns a :class:`CheckResult`: a small record with a readable
+``__repr__``, an HTML table for notebooks and ``to_dict()`` for JSON.
+"""
+from __future__ import annotations
+
+import html
+import json
+import math
+from dataclasses import dataclass, field, replace
+from pathlib import Path
+
+import numpy as np
+
+from . import stress as _stress
+
+__all__ = [
+    "CAUTION", "CheckResult", "SNCurve", "sn_curve", "load_sn_data", "SN_DATA_PATH",
+    "THICKNESS_EXPONENTS", "thickness_factor", "miner_damage", "fatigue_check", "static_check",
+]
+
+CAUTION = ("This result supports, and does not replace, the judgment of a qualified engineer "
+           "and the governing local codes.")
+
+SN_DATA_PATH = Path(__file__).resolve().parents[1] / "data" / "sn_curves.json"
+
+IIW_2016 = "IIW recommendations (Hobbacher 2016, XIII-2460-13)"
+
+
+# ---------------------------------------------------------------------------
+# Check result
+# ---------------------------------------------------------------------------
+def _plain(v):
+    """JSON-friendly copy of a value (numpy scalars and arrays to Python)."""
+    if isinstance(v, dict):
+        return {str(k): _plain(x) for k, x in v.items()}
+    if isinstance(v, (list, tuple)):
+        return [_plain(x) for x in v]
+    if isinstance(v, np.ndarray):
+        return _plain(v.tolist())
+    if isinstance(v, np.generic):
+        return v.item()
+    if isinstance(v, float) and not math.isfinite(v):
+        return "inf" if v > 0 else ("-inf" if v < 0 else "nan")
+    if isinstance(v, SNCurve):
+        return v.to_dict()
+    return v
+
+
+def _fmt(v):
+    if isinstance(v, (float, np.floating)):
+        return f"{float(v):.6g}"
+    if isinstance(v, np.ndarray):
+        return np.array2string(v, precision=5, threshold=8)
+    if isinstance(v, SNCurve):
+        return v.label()
+    return str(v)
+
+
+@dataclass
+class CheckResult:
+    """Outcome of one check: ``utilization = value / limit``, ``PASS`` if <= 1.
+
+    Attributes
+    ----------
+    name, value, limit, unit (of value and limit), inputs (dict), notes (list
+    of str), cautions (a fixed sentence, :data:`CAUTION`); ``utilization`` and
+    ``status`` are derived.
+    """
+
+    name: str
+    value: float
+    limit: float
+    unit: str
+    inputs: dict = field(default_factory=dict)
+    notes: list = field(default_factory=list)
+    cautions: str = CAUTION
+
+    def __post_init__(self):
+        self.value = float(self.value)
+        self.limit = float(self.limit)
+        if not math.isfinite(self.value):
+            raise ValueError(f"check {self.name!r}: value is {self.value}")
+        if not (math.isfinite(self.limit) and self.limit > 0):
+            raise ValueError(f"check {self.name!r}: limit must be positive and finite, got {self.limit}")
+
+    @property
+    def utilization(self) -> float:
+        return self.value / self.limit
+
+    @property
+    def status(self) -> str:
+        return "PASS" if self.utilization <= 1.0 else "FAIL"
+
+    @property
+    def units(self) -> str:
+        return self.unit
+
+    def rows(self):
+        """(label, text) rows of the table shown by ``__repr__`` and ``_repr_html_``."""
+        u = f" {self.unit}" if self.unit and self.unit != "-" else ""
+        rows = [("value", f"{self.value:.6g}{u}"), ("limit", f"{self.limit:.6g}{u}"),
+                ("utilization", f"{self.utilization:.3f}"), ("status", self.status)]
+        rows += [(f"input: {k}", _fmt(v)) for k, v in self.inputs.items()]
+        rows += [("note", n) for n in self.notes]
+        rows.append(("caution", self.cautions))
+        return rows
+
+    def __repr__(self):
+        rows = self.rows()
+        w = max(len(r[0]) for r in rows)
+        return "\n".join([f"CheckResult: {self.name}"] + [f"  {k:<{w}}  {v}" for k, v in rows])
+
+    def _repr_html_(self):
+        body = "".join(f"<tr><th style='text-align:left'>{html.escape(k)}</th><td style='text-align:left'>"
+                       f"{html.escape(v)}</td></tr>" for k, v in self.rows())
+        return (f"<table><caption style='text-align:left'><b>{html.escape(self.name)}</b>: "
+                f"{html.escape(self.status)}</caption>{body}</table>")
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "value": self.value, "limit": self.limit, "utilization": self.utilization,
+                "status": self.status, "unit": self.unit, "inputs": _plain(self.inputs),
+                "notes": list(self.notes), "cautions": self.cautions}
+
+
+# ---------------------------------------------------------------------------
+# S-N curves
+# ---------------------------------------------------------------------------
+_CURVE_KEYS = {"name", "fat", "m1", "knee_cycles", "m2", "n_ref", "stress", "unit", "source"}
+
+
+@dataclass(frozen=True)
+class SNCurve:
+    """A fatigue resistance curve in the IIW form.
+
+    ``N = n_ref (fat/Δσ)^m1`` for ``Δσ >= Δσ_knee``; beyond the knee
+    (``N > knee_cycles``) either no damage (``m2=None``: constant-amplitude
+    fatigue limit at ``Δσ_knee``) or ``N = knee_cycles (Δσ_knee/Δσ)^m2``.
+    ``Δσ_knee = fat (n_ref/knee_cycles)^(1/m1)``.  IIW 2016: normal stress
+    m1 = 3, knee 1e7, m2 = 22 (variable amplitude); shear m1 = 5, knee 1e8.
+    """
+
+    name: str
+    fat: float
+    m1: float = 3.0
+    knee_cycles: float = 1e7
+    m2: float | None = None
+    n_ref: float = 2e6
+    stress: str = "normal"
+    unit: str = "MPa"
+    source: str = "user-defined"
+
+    def __post_init__(self):
+        for k in ("fat", "m1", "knee_cycles", "n_ref"):
+            v = getattr(self, k)
+            if not (isinstance(v, (int, float, np.integer, np.floating)) and math.isfinite(v) and v > 0):
+                raise ValueError(f"S-N curve {self.name!r}: {k} must be a positive number, got {v!r}")
+            object.__setattr__(self, k, float(v))
+        if self.m2 is not None:
+            if not (isinstance(self.m2, (int, float, np.integer, np.floating)) and math.isfinite(self.m2)
+                    and self.m2 > 0):
+                raise ValueError(f"S-N curve {self.name!r}: m2 must be a positive number or None, got {self.m2!r}")
+            object.__setattr__(self, "m2", float(self.m2))
+        if self.stress not in ("normal", "shear"):
+            raise ValueError(f"S-N curve {self.name!r}: stress must be 'normal' or 'shear', got {self.stress!r}")
+
+    @classmethod
+    def from_dict(cls, d: dict) -> "SNCurve":
+        """A user-defined curve, e.g. ``{"name": "my detail", "fat": 71, "m1": 3, "knee_cycles": 1e7, "m2": 22}``."""
+        if isinstance(d, SNCurve):
+            return d
+        if not isinstance(d, dict):
+            raise ValueError(f"an S-N curve must be an SNCurve or a dict, got {type(d).__name__}")
+        unknown = set(d) - _CURVE_KEYS
+        if unknown:
+            raise ValueError(f"S-N curve dict: unknown key(s) {sorted(unknown)}; allowed: {sorted(_CURVE_KEYS)}")
+        if "fat" not in d:
+            raise ValueError("S-N curve dict needs 'fat' (stress range at n_ref cycles)")
+        d = dict(d)
+        d.setdefault("name", f"user FAT {d['fat']}")
+        return cls(**d)
+
+    def to_dict(self) -> dict:
+        return {"name": self.name, "fat": self.fat, "m1": self.m1, "knee_cycles": self.knee_cycles, "m2": self.m2,
+                "n_ref": self.n_ref, "stress": self.stress, "unit": self.unit, "source": self.source}
+
+    def label(self) -> str:
+        beyond = "no damage below the knee" if self.m2 is None else f"m2 = {self.m2:g}"
+        return (f"{self.name} (FAT {self.fat:g} {self.unit} at {self.n_ref:.3g}, m1 = {self.m1:g}, knee at "
+                f"{self.knee_cycles:.3g} cycles, {beyond})")
+
+    def __repr__(self):
+        return f"SNCurve({self.label()})"
+
+    @property
+    def knee_stress(self) -> float:
+        """Stress range at the knee, ``fat (n_ref/knee_cycles)^(1/m1)``."""
+        return self.fat * (self.n_ref / self.knee_cycles) ** (1.0 / self.m1)
+
+    def life(self, stress_range):
+        """Cycles to failure for stress range(s) ``Δσ`` (``inf`` where no damage)."""
+        s = np.asarray(stress_range, dtype=float)
+        if not np.all(np.isfinite(s)) or np.any(s < 0):
+            raise ValueError(f"S-N curve {self.name!r}: stress ranges must be finite and >= 0, got {stress_range}")
+        sk = self.knee_stress
+        with np.errstate(divide="ignore"):
+            above = self.n_ref * (self.fat / s) ** self.m1
+            if self.m2 is None:
+                below = np.full_like(s, np.inf)
+            else:
+                below = self.knee_cycles * (sk / s) ** self.m2
+        N = np.where(s >= sk, above, below)
+        return float(N) if N.ndim == 0 else N
+
+    def strength(self, cycles):
+        """Stress range at ``cycles`` (the inverse of :meth:`life`; the knee stress beyond the knee if m2 is None)."""
+        n = np.asarray(cycles, dtype=float)
+        if not np.all(np.isfinite(n)) or np.any(n <= 0):
+            raise ValueError(f"S-N curve {self.name!r}: cycles must be positive and finite, got {cycles}")
+        sk = self.knee_stress
+        above = self.fat * (self.n_ref / n) ** (1.0 / self.m1)
+        below = np.full_like(n, sk) if self.m2 is None else sk * (self.knee_cycles / n) ** (1.0 / self.m2)
+        out = np.where(n <= self.knee_cycles, above, below)
+        return float(out) if out.ndim == 0 else out
+
+    def scaled(self, factor: float, why: str = "") -> "SNCurve":
+        """The curve with every resistance stress multiplied by ``factor`` (e.g. ``f(t)``, ``1/γM``)."""
+        f = float(factor)
+        if not (math.isfinite(f) and f > 0):
+            raise ValueError(f"scale factor must be positive, got {factor}")
+        return replace(self, fat=self.fat * f, name=f"{self.name} x {f:.4g}" + (f" ({why})" if why else ""))
+
+
+def load_sn_data(path=None) -> dict:
+    """The S-N data file as a dict (default ``data/sn_curves.json``)."""
+    p = Path(path) if path is not None else SN_DATA_PATH
+    if not p.is_file():
+        raise ValueError(f"S-N curve data file not found: {p}")
+    try:
+        data = json.loads(p.read_text(encoding="utf-8"))
+    except json.JSONDecodeError as e:
+        raise ValueError(f"{p}: not valid JSON ({e})") from None
+    for key in ("source", "edition", "reference_cycles", "families", "unit"):
+        if key not in data:
+            raise ValueError(f"{p}: missing top-level key {key!r}")
+    return data
+
+
+def sn_curve(fat, stress="normal", amplitude="constant", path=None) -> SNCurve:
+    """An IIW S-N curve by FAT class from ``data/sn_curves.json``.
+
+    Parameters
+    ----------
+    fat : FAT class (stress range in MPa at 2e6 cycles), one of the file's classes.
+    stress : "normal" (m1 = 3, knee 1e7) or "shear" (m1 = 5, knee 1e8).
+    amplitude : "constant" (no damage below the knee-point stress),
+        "variable" (IIW 2016: m2 = 22 beyond the knee, for Palmgren–Miner) or
+        "variable-haibach" (older practice: m2 = 2 m1 - 1).
+    """
+    data = load_sn_data(path)
+    fams = data["families"]
+    if stress not in fams:
+        raise ValueError(f"stress must be one of {sorted(fams)}, got {stress!r}")
+    fam = fams[stress]
+    if amplitude not in fam["m2"]:
+        raise ValueError(f"amplitude must be one of {sorted(fam['m2'])}, got {amplitude!r}")
+    classes = [float(c) for c in fam["fat"]]
+    if float(fat) not in classes:
+        raise ValueError(f"FAT {fat} is not a {stress}-stress class of {data['source']}: "
+                         f"{', '.join(f'{c:g}' for c in classes)}; for another value pass a dict to SNCurve.from_dict")
+    return SNCurve(name=f"FAT {float(fat):g} {stress} ({amplitude} amplitude)", fat=float(fat), m1=fam["m1"],
+                   knee_cycles=fam["knee_cycles"], m2=fam["m2"][amplitude], n_ref=data["reference_cycles"],
+                   stress=stress, unit=data["unit"], source=f"{data['source']}; {fam['m2_notes'][amplitude]}")
+
+
+def _curve(curve) -> SNCurve:
+    if isinstance(curve, SNCurve):
+        return curve
+    if isinstance(curve, dict):
+        return SNCurve.from_dict(curve)
+    raise ValueError(f"curve must be an SNCurve (see sn_curve(fat, amplitude=...)) or a dict, got {curve!r}")
+
+
+# ---------------------------------------------------------------------------
+# Thickness correction
+# ---------------------------------------------------------------------------
+# IIW recommendations (Hobbacher 2016), thickness correction exponents (from memory).
+THICKNESS_EXPONENTS = {
+    "cruciform-as-welded": (0.3, "cruciform joints, transverse T-joints, plates with transverse attachments, "
+                                 "ends of longitudinal stiffeners; as-welded"),
+    "cruciform-toe-ground": (0.2, "cruciform joints, transverse T-joints, plates with transverse attachments, "
+                                  "ends of longitudinal stiffeners; toe ground"),
+    "butt-as-welded": (0.2, "transverse butt welds, as-welded"),
+    "butt-ground-flush": (0.1, "butt welds ground flush, base material, longitudinal welds or attachments"),
+}
+
+
+def thickness_factor(thickness, joint=None, n=None, t_ref=25.0, toe_distance=None) -> float:
+    """IIW thickness reduction factor ``f(t) = (t_ref / t_eff)^n`` for ``t_eff > t_ref``, else 1.
+
+    Multiply the FAT class by ``f(t)``.  ``n`` comes from ``joint`` (a key of
+    :data:`THICKNESS_EXPONENTS`: 0.3 cruciform/T-joints as-welded, 0.2 toe
+    ground, 0.2 transverse butt welds as-welded, 0.1 butt welds ground flush)
+    or is given directly.  ``t_ref = 25 mm``.  With the toe distance ``L``
+    (attachment thickness plus weld legs) given and ``L/t <= 2``, the
+    effective thickness is ``t_eff = 0.5 L`` (no correction while it stays
+    at or below ``t_ref``); otherwise ``t_eff = t``.  Lengths in mm.
+    """
+    if (joint is None) == (n is None):
+        raise ValueError(f"thickness_factor: give exactly one of joint= (one of {sorted(THICKNESS_EXPONENTS)}) or n=")
+    if joint is not None:
+        if joint not in THICKNESS_EXPONENTS:
+            raise ValueError(f"unknown joint category {joint!r}; choose one of {sorted(THICKNESS_EXPONENTS)}")
+        n = THICKNESS_EXPONENTS[joint][0]
+    t = float(thickness)
+    n = float(n)
+    if not (math.isfinite(t) and t > 0):
+        raise ValueError(f"thickness must be positive, got {thickness}")
+    if not (math.isfinite(n) and 0 <= n <= 1):
+        raise ValueError(f"thickness exponent n must lie in [0, 1], got {n}")
+    t_eff = t
+    if toe_distance is not None:
+        L = float(toe_distance)
+        if not (math.isfinite(L) and L > 0):
+            raise ValueError(f"toe_distance must be positive, got {toe_distance}")
+        if L / t <= 2.0:
+            t_eff = 0.5 * L
+    return (t_ref / t_eff) ** n if t_eff > t_ref else 1.0
+
+
+# ---------------------------------------------------------------------------
+# Palmgren-Miner damage and the fatigue check
+# ---------------------------------------------------------------------------
+def _histogram(stress_ranges, cycles):
+    s = np.atleast_1d(np.asarray(stress_ranges, dtype=float))
+    n = np.atleast_1d(np.asarray(cycles, dtype=float))
+    if s.ndim != 1 or s.shape != n.shape:
+        raise ValueError(f"stress ranges {s.shape} and cycles {n.shape} must be 1D of equal length")
+    for name, a in (("stress range", s), ("cycle count", n)):
+        bad = ~(np.isfinite(a) & (a >= 0))
+        if bad.any():
+            i = int(np.flatnonzero(bad)[0])
+            raise ValueError(f"histogram row {i}: {name} {a[i]} must be finite and >= 0")
+    return s, n
+
+
+def miner_damage(stress_ranges, cycles, curve, gamma_F=1.0, gamma_M=1.0, thickness_factor=1.0):
+    """Palmgren–Miner damage sum ``D = sum n_i / N_i``.
+
+    ``N_i`` is the life of the design curve (FAT x f(t) / γM) at the design
+    range γF Δσ_i, i.e. ``N_i = curve.life(γF γM Δσ_i / f(t))`` (IIW 2016,
+    partial safety factors on actions and resistance).  Returns
+    ``(D, per_bin)`` with ``per_bin = {"design_range", "life", "damage"}``.
+    """
+    c = _curve(curve)
+    s, n = _histogram(stress_ranges, cycles)
+    for k, v in (("gamma_F", gamma_F), ("gamma_M", gamma_M), ("thickness_factor", thickness_factor)):
+        if not (math.isfinite(float(v)) and float(v) > 0):
+            raise ValueError(f"{k} must be positive, got {v}")
+    design = c.scaled(thickness_factor / gamma_M) if (thickness_factor != 1.0 or gamma_M != 1.0) else c
+    sd = gamma_F * s
+    N = np.atleast_1d(design.life(sd))
+    d = np.where(np.isinf(N), 0.0, n / N)
+    return float(d.sum()), {"design_range": sd, "life": N, "damage": d}
+
+
+def fatigue_check(stress_ranges, cycles, curve, gamma_F=1.0, gamma_M=1.0, thickness_factor=1.0,
+                  damage_limit=0.5, name="fatigue (Palmgren-Miner)") -> CheckResult:
+    """Fatigue check of a stress-range histogram: ``D = sum n_i/N_i <= D_limit``.
+
+    ``utilization = D / D_limit``.  ``N_i`` as in :func:`miner_damage`.  The
+    default ``damage_limit = 0.5`` is the IIW 2016 recommendation for welded
+    joints under variable amplitude loading (from memory; 1.0 is the classical
+    Miner value and may be what the governing code asks for).  For constant
+    amplitude give a one-row histogram.
+    """
+    c = _curve(curve)
+    D, per = miner_damage(stress_ranges, cycles, c, gamma_F, gamma_M, thickness_factor)
+    dl = float(damage_limit)
+    if not (math.isfinite(dl) and dl > 0):
+        raise ValueError(f"damage_limit must be positive, got {damage_limit}")
+    s, n = _histogram(stress_ranges, cycles)
+    notes = [f"design curve: FAT {c.fat:g} x f(t) {thickness_factor:.4g} / gammaM {gamma_M:g} = "
+             f"{c.fat * thickness_factor / gamma_M:.4g} {c.unit}; design ranges = gammaF {gamma_F:g} x ranges"]
+    if D > 0:
+        notes.append(f"the histogram may be repeated {dl / D:.4g} times before the damage limit is reached")
+    else:
+        notes.append("no histogram row lies above the knee-point stress of the design curve: zero damage")
+    i = int(np.argmax(per["damage"])) if D > 0 else None
+    if i is not None:
+        notes.append(f"largest contribution: row {i} (range {s[i]:.4g} {c.unit}, {n[i]:.4g} cycles), "
+                     f"{per['damage'][i] / D:.1%} of the damage")
+    low = np.flatnonzero(per["life"] < 1e4)
+    if low.size:
+        notes.append(f"rows {low.tolist()} have design lives below 1e4 cycles, outside the high-cycle range "
+                     "the S-N curves cover (common practice)")
+    inputs = {"curve": c, "stress_ranges": s, "cycles": n, "gamma_F": float(gamma_F), "gamma_M": float(gamma_M),
+              "thickness_factor": float(thickness_factor), "lives": per["life"], "damage_per_row": per["damage"],
+              "source": IIW_2016}
+    return CheckResult(name=name, value=D, limit=dl, unit="-", inputs=inputs, notes=notes)
+
+
+# ---------------------------------------------------------------------------
+# Static check
+# ---------------------------------------------------------------------------
+def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mises", components=None,
+                 unit="MPa", name=None) -> CheckResult:
+    """Static strength check: ``σ_eq <= f_y / S``.
+
+    Parameters
+    ----------
+    peak_stress : float or array
+        Without ``components``: equivalent stress value(s) by ``criterion``
+        (the largest magnitude is checked).  With ``components``: stress
+        states ``(..., ncomp)`` from which the equivalent stress is computed
+        (:func:`toolkit.stress.von_mises`, or for ``"max principal"`` the
+        principal stress of largest magnitude, tension or compression).
+    yield_strength, safety_factor : positive numbers; limit = yield / safety factor.
+    criterion : "von Mises" or "max principal".
+    """
+    crit = {"von mises": "von Mises", "max principal": "max principal"}.get(str(criterion).lower())
+    if crit is None:
+        raise ValueError(f"criterion must be 'von Mises' or 'max principal', got {criterion!r}")
+    fy, sf = float(yield_strength), float(safety_factor)
+    if not (math.isfinite(fy) and fy > 0):
+        raise ValueError(f"yield_strength must be positive, got {yield_strength}")
+    if not (math.isfinite(sf) and sf > 0):
+        raise ValueError(f"safety_factor must be positive, got {safety_factor}")
+    if components is not None:
+        eq = _stress.von_mises(peak_stress, components) if crit == "von Mises" else \
+            _stress.max_abs_principal(peak_stress, components)
+    else:
+        eq = np.asarray(peak_stress, dtype=float)
+        if eq.size == 0 or not np.all(np.isfinite(eq)):
+            raise ValueError(f"peak_stress must be finite numbers, got {peak_stress}")
+    eq = np.atleast_1d(eq)
+    k = int(np.argmax(np.abs(eq).ravel()))
+    value = abs(float(eq.ravel()[k]))
+    inputs = {"criterion": crit, "yield_strength": fy, "safety_factor": sf}
+    notes = [f"limit = yield strength {fy:.6g} / safety factor {sf:g}"]
+    if eq.size > 1:
+        idx = tuple(int(i) for i in np.unravel_index(k, eq.shape))
+        inputs["points_checked"] = int(eq.size)
+        notes.append(f"largest of {eq.size} values at index {idx}")
+    if crit == "max principal":
+        notes.append("max principal: the principal stress of largest magnitude (tension or compression)")
+    return CheckResult(name=name or f"static strength ({crit})", value=value, limit=fy / sf, unit=unit,
+                       inputs=inputs, notes=notes)

@@ -1,0 +1,151 @@
+"""Figures: mesh, raw (discontinuous) and smoothed contour plots.
+
+matplotlib is imported inside each function, so importing the toolkit does
+not need a display or a backend.  Colour maps are matplotlib's perceptually
+uniform defaults (viridis for magnitudes, a diverging map for signed
+differences).
+"""
+from __future__ import annotations
+
+import numpy as np
+
+from .elements import local_field_matrix
+from .fields import GaussField, NodalField
+from .mesh import Mesh
+
+__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "SUBTRIANGLES"]
+
+# Local sub-triangles used to draw each 2D element type (node indices).
+SUBTRIANGLES = {
+    "tri3": [(0, 1, 2)],
+    "tri6": [(0, 3, 5), (3, 1, 4), (5, 4, 2), (3, 4, 5)],
+    "quad4": [(0, 1, 2), (0, 2, 3)],
+    "quad8": [(0, 4, 7), (4, 1, 5), (5, 2, 6), (6, 3, 7), (4, 5, 7), (5, 6, 7)],
+    "quad9": [(0, 4, 8), (4, 1, 8), (1, 5, 8), (5, 2, 8), (2, 6, 8), (6, 3, 8), (3, 7, 8), (7, 0, 8)],
+}
+
+
+def _axes(ax):
+    import matplotlib.pyplot as plt
+
+    if ax is None:
+        _, ax = plt.subplots(figsize=(6, 4.5))
+    return ax
+
+
+def _need_2d(mesh):
+    if mesh.dim != 2:
+        raise ValueError("contour plots are for 2D meshes; export a VTU file to view 3D models")
+
+
+def plot_mesh(mesh: Mesh, ax=None, color="0.35", linewidth=0.4, label_regions=False):
+    """Element outlines (quadratic edges drawn through their mid-side node)."""
+    from matplotlib.collections import LineCollection
+
+    _need_2d(mesh)
+    ax = _axes(ax)
+    segs = []
+    for b in mesh.blocks:
+        for e in b.element.edges:
+            path = (e[0], e[2], e[1]) if len(e) == 3 else e
+            pts = mesh.nodes[b.cells[:, list(path)]]                 # (m, 2|3, 2)
+            segs.append(pts)
+    lines = np.concatenate([np.concatenate([s[:, i:i + 2] for i in range(s.shape[1] - 1)]) for s in segs])
+    ax.add_collection(LineCollection(lines, colors=color, linewidths=linewidth))
+    ax.set_aspect("equal")
+    ax.autoscale_view()
+    if label_regions and len(mesh.regions) > 1:
+        for b in mesh.blocks:
+            c = mesh.nodes[b.cells].mean(axis=1)
+            for r in np.unique(b.regions):
+                p = c[b.regions == r].mean(axis=0)
+                ax.annotate(f"region {r}", p, ha="center", fontsize=8)
+    return ax
+
+
+def _triangulation(xy, cell_rows_by_block):
+    import matplotlib.tri as mtri
+
+    tris = []
+    for name, rows in cell_rows_by_block.items():
+        for t in SUBTRIANGLES[name]:
+            tris.append(rows[:, list(t)])
+    return mtri.Triangulation(xy[:, 0], xy[:, 1], np.concatenate(tris))
+
+
+def _draw(ax, tri, z, levels, cmap, label, vmin=None, vmax=None):
+    import matplotlib.pyplot as plt
+
+    vmin = np.nanmin(z) if vmin is None else vmin
+    vmax = np.nanmax(z) if vmax is None else vmax
+    if vmax <= vmin:
+        vmax = vmin + max(abs(vmin), 1.0) * 1e-9
+    lv = np.linspace(vmin, vmax, levels)
+    cs = ax.tricontourf(tri, z, levels=lv, cmap=cmap, extend="neither")
+    ax.set_aspect("equal")
+    plt.colorbar(cs, ax=ax, label=label, shrink=0.85)
+    return cs
+
+
+def contour_nodal(nodal: NodalField, component, ax=None, levels=21, cmap="viridis", mesh_lines=False,
+                  vmin=None, vmax=None, title=None):
+    """Filled contours of a smoothed nodal field (region splits respected:
+    each region is drawn from its own values)."""
+    mesh = nodal.mesh
+    _need_2d(mesh)
+    ax = _axes(ax)
+    z = nodal.values[:, nodal.components.index(component)]
+    xy = mesh.nodes[nodal.node]
+    rows = {b.name: nodal.cell_rows(b.name) for b in mesh.blocks}
+    _draw(ax, _triangulation(xy, rows), z, levels, cmap, component, vmin, vmax)
+    if mesh_lines:
+        plot_mesh(mesh, ax, linewidth=0.2)
+    ax.set_title(title or f"{component}, {nodal.method or 'nodal'}")
+    return ax
+
+
+def raw_nodal_values(field: GaussField, component):
+    """Each cell's own local field at its own nodes, cell by cell (no
+    averaging): ``{block: (m, k)}``.  This is the discontinuous field."""
+    a = field.components.index(component)
+    out = {}
+    for b in field.mesh.blocks:
+        E = local_field_matrix(b.element, field.points[b.name], b.element.nodes)
+        out[b.name] = field.values[b.name][..., a] @ E.T
+    return out
+
+
+def contour_raw(field: GaussField, component, ax=None, levels=21, cmap="viridis", vmin=None, vmax=None,
+                title=None):
+    """Filled contours of the raw field: every cell drawn from its own
+    integration-point values, so the jumps between cells stay visible."""
+    mesh = field.mesh
+    _need_2d(mesh)
+    ax = _axes(ax)
+    vals = raw_nodal_values(field, component)
+    xy, z, rows, start = [], [], {}, 0
+    for b in mesh.blocks:
+        m, k = b.cells.shape
+        xy.append(mesh.nodes[b.cells].reshape(-1, 2))
+        z.append(vals[b.name].ravel())
+        rows[b.name] = start + np.arange(m * k).reshape(m, k)
+        start += m * k
+    _draw(ax, _triangulation(np.concatenate(xy), rows), np.concatenate(z), levels, cmap, component, vmin, vmax)
+    ax.set_title(title or f"{component}, raw (cell by cell)")
+    return ax
+
+
+def raw_vs_smoothed(field: GaussField, nodal: NodalField, component, figsize=(11, 4.2), levels=21):
+    """The raw integration-point field beside the smoothed one, on one colour
+    scale.  Returns the figure."""
+    import matplotlib.pyplot as plt
+
+    raw = raw_nodal_values(field, component)
+    z = nodal.values[:, nodal.components.index(component)]
+    lo = min(min(v.min() for v in raw.values()), z.min())
+    hi = max(max(v.max() for v in raw.values()), z.max())
+    fig, axes = plt.subplots(1, 2, figsize=figsize, constrained_layout=True)
+    contour_raw(field, component, axes[0], levels, vmin=lo, vmax=hi)
+    contour_nodal(nodal, component, axes[1], levels, vmin=lo, vmax=hi,
+                  title=f"{component}, smoothed ({nodal.method})")
+    return fig
