@@ -13,7 +13,6 @@
 from __future__ import annotations
 
 from dataclasses import dataclass, field
-from typing import Callable
 
 import numpy as np
 
@@ -192,7 +191,9 @@ def hot_spot_stress(stress_at, thickness=None, rule="a-linear", element_size=Non
         distances ``(p,)`` and stresses ``(p,)`` or ``(p, ncomp)``, linearly
         interpolated; a read-out point outside the samples raises ValueError.
     thickness : float
-        Plate thickness t (model length units); required for type "a" rules.
+        Plate thickness t (model length units); required for type "a" rules
+        (for type "b" rules, whose read-outs do not depend on t, it is only
+        recorded in the result).
     rule : str
         One of :data:`HOT_SPOT_RULES`.
     element_size : float, optional

@@ -31,8 +31,9 @@ any number of fields.
 """
 from __future__ import annotations
 
+import os
 import time
-import warnings
+from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import scipy.sparse as sp
@@ -148,13 +149,35 @@ def rhs_rule(element, npoints: int):
 # ---------------------------------------------------------------------------
 # Block conjugate gradients
 # ---------------------------------------------------------------------------
-def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None):
+def row_parts(A, parts: int):
+    """Split a CSR matrix into ``parts`` contiguous row blocks of about equal
+    non-zeros: ``[(row slice, block), ...]``."""
+    n = A.shape[0]
+    if parts <= 1 or n < 2 * parts:
+        return [(slice(0, n), A)]
+    cuts = np.searchsorted(A.indptr, np.linspace(0, A.nnz, parts + 1)[1:-1])
+    edges = np.r_[0, cuts, n]
+    return [(slice(int(lo), int(hi)), A[int(lo):int(hi)]) for lo, hi in zip(edges[:-1], edges[1:]) if hi > lo]
+
+
+def default_threads(n: int) -> int:
+    """Threads for the conjugate-gradient loop: one for small systems, else
+    the machine's cores (scipy's sparse products and numpy's element-wise
+    operations release the GIL), at most 4."""
+    return 1 if n < 50_000 else max(1, min(4, os.cpu_count() or 1))
+
+
+def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None, threads=1, parts=None):
     """Jacobi-preconditioned conjugate gradients for every column of ``B`` at
     once (each column keeps its own step lengths; the matrix is shared).
     Stops each column when ``||b - A x|| <= rtol ||b||``.
 
     Internally the columns are stored as rows (components, n), so every
-    vector operation runs over long contiguous arrays.
+    vector operation runs over long contiguous arrays.  With ``threads > 1``
+    the rows are split into blocks of equal non-zeros (``parts``, from
+    :func:`row_parts`) and each thread runs the matrix product and the vector
+    updates of its block; the step lengths come from the summed partial dot
+    products, so the iterates equal the single-thread ones up to rounding.
 
     Returns ``X (n, columns), iterations (per column), relative residuals``.
     Raises ``RuntimeError`` if a column has not converged after ``maxiter``.
@@ -162,47 +185,77 @@ def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None):
     B = np.ascontiguousarray(np.asarray(B, dtype=float).T)          # (c, n)
     ncol, n = B.shape
     maxiter = maxiter or max(200, 10 * int(np.sqrt(n)))
-
-    def matvec(V, out):
-        for i in range(ncol):
-            out[i] = A @ V[i]
-        return out
+    parts = parts if parts is not None else row_parts(A, threads)
+    dinv = np.asarray(dinv, dtype=float)
 
     X = np.zeros_like(B) if x0 is None else np.ascontiguousarray(np.asarray(x0, dtype=float).T)
-    R = B - matvec(X, np.empty_like(B)) if x0 is not None else B.copy()
-    Z = R * dinv
-    P = Z.copy()
+    R = np.empty_like(B)
+    Z = np.empty_like(B)
+    P = np.empty_like(B)
     Q = np.empty_like(B)
     tmp = np.empty_like(B)
 
     def dots(U, V):
         return np.einsum("ij,ij->i", U, V)
 
-    rz = dots(R, Z)
-    bnorm = np.sqrt(dots(B, B))
-    target = rtol * bnorm
-    rnorm = np.sqrt(dots(R, R))
-    done = rnorm <= target
-    iters = np.zeros(ncol, dtype=int)
-    for _ in range(maxiter):
-        if done.all():
-            break
-        matvec(P, Q)
-        pq = dots(P, Q)
-        alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))[:, None]
-        np.multiply(P, alpha, out=tmp)
-        X += tmp
-        np.multiply(Q, alpha, out=tmp)
-        R -= tmp
-        rnorm = np.sqrt(dots(R, R))
-        iters[~done] += 1
-        done = done | (rnorm <= target)
-        np.multiply(R, dinv, out=Z)
-        rz_new = dots(R, Z)
-        beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))[:, None]
-        rz = rz_new
-        P *= beta
-        P += Z
+    def start(part):
+        sl, Ap = part
+        for i in range(ncol):
+            R[i, sl] = B[i, sl] - Ap @ X[i] if x0 is not None else B[i, sl]
+        np.multiply(R[:, sl], dinv[sl], out=Z[:, sl])
+        P[:, sl] = Z[:, sl]
+        return np.stack([dots(R[:, sl], Z[:, sl]), dots(R[:, sl], R[:, sl]), dots(B[:, sl], B[:, sl])])
+
+    def product(part):
+        sl, Ap = part
+        for i in range(ncol):
+            Q[i, sl] = Ap @ P[i]
+        return dots(P[:, sl], Q[:, sl])
+
+    def update(part, alpha):
+        sl, _ = part
+        t = tmp[:, sl]
+        np.multiply(P[:, sl], alpha, out=t)
+        X[:, sl] += t
+        np.multiply(Q[:, sl], alpha, out=t)
+        R[:, sl] -= t
+        np.multiply(R[:, sl], dinv[sl], out=Z[:, sl])
+        return np.stack([dots(R[:, sl], R[:, sl]), dots(R[:, sl], Z[:, sl])])
+
+    def direction(part, beta):
+        sl, _ = part
+        P[:, sl] *= beta
+        P[:, sl] += Z[:, sl]
+
+    pool = ThreadPoolExecutor(len(parts)) if len(parts) > 1 else None
+
+    def run(fn, *args):
+        if pool is None:
+            return [fn(parts[0], *args)]
+        return list(pool.map(lambda pt: fn(pt, *args), parts))
+
+    try:
+        rz, rr, bb = np.sum(run(start), axis=0)
+        bnorm = np.sqrt(bb)
+        target = rtol * bnorm
+        rnorm = np.sqrt(rr)
+        done = rnorm <= target
+        iters = np.zeros(ncol, dtype=int)
+        for _ in range(maxiter):
+            if done.all():
+                break
+            pq = np.sum(run(product), axis=0)
+            alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))[:, None]
+            rr, rz_new = np.sum(run(update, alpha), axis=0)
+            rnorm = np.sqrt(rr)
+            iters[~done] += 1
+            done = done | (rnorm <= target)
+            beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))[:, None]
+            rz = rz_new
+            run(direction, beta)
+    finally:
+        if pool is not None:
+            pool.shutdown()
     if not done.all():
         bad = np.flatnonzero(~done)
         raise RuntimeError(f"conjugate gradients did not reach rtol={rtol:g} in {maxiter} iterations for "
@@ -225,10 +278,9 @@ def _assemble_csr(scatters, cell_dofs, element_matrices, ndof):
     for S, dofs, Me in zip(scatters, cell_dofs, element_matrices):
         m, k = dofs.shape
         Sr = S.tocsr()                                   # rows: unknowns; columns: slots c*k + a
-        slots = Sr.indices
-        c, a = np.divmod(slots, k)
-        ind_parts.append(dofs[c])                        # (m*k, k) columns of each slot's row
-        dat_parts.append(Me.reshape(m, k, k)[c, a])      # (m*k, k)
+        slots = Sr.indices                               # slot s = c*k + a: local node a of cell c
+        ind_parts.append(np.take(dofs, slots // k, axis=0))          # (m*k, k) columns of each slot's row
+        dat_parts.append(np.take(Me.reshape(m * k, k), slots, axis=0))  # row a of cell c's matrix
         indptr_parts.append(np.diff(Sr.indptr) * k)
     if len(ind_parts) == 1:
         counts = indptr_parts[0]
@@ -268,6 +320,8 @@ class L2Projector:
     rtol : relative residual for ``"cg"`` (default 1e-10).
     renumber : ``"auto"`` (renumber with reverse Cuthill–McKee when the
         numbering is scattered), ``True`` or ``False``.
+    threads : threads for the conjugate-gradient loop (default: 1 below
+        50 000 unknowns, else the number of cores, at most 4).
 
     The mass matrix uses each type's mass rule, exact for N^T N det J on
     straight-edged elements (quad4 2x2, quad8/9 3x3, tri3 3, tri6 6, tet4 4,
@@ -275,7 +329,7 @@ class L2Projector:
     """
 
     def __init__(self, mesh: Mesh, lumped=False, across_regions=False, solver="cg", rtol=1e-10,
-                 maxiter=None, renumber="auto"):
+                 maxiter=None, renumber="auto", threads=None):
         if not isinstance(mesh, Mesh):
             raise ValueError("L2Projector needs a Mesh")
         if solver not in ("cg", "direct"):
@@ -290,6 +344,7 @@ class L2Projector:
         self.solver = solver
         self.rtol = float(rtol)
         self.maxiter = maxiter
+        self._parts = None
         base = DofMap(mesh, across_regions)
         self.locality = base.locality()
         self.renumbered = bool(renumber is True or (renumber == "auto" and not lumped and self.locality > 8.0))
@@ -303,6 +358,7 @@ class L2Projector:
         self._rhs_cache: dict = {}
         self._hrz: dict = {}
         self._assemble()
+        self.threads = int(threads) if threads else default_threads(self.dofs.ndof)
         self.setup_time = time.perf_counter() - t0
 
     # -- assembly ------------------------------------------------------------
@@ -397,8 +453,12 @@ class L2Projector:
             x = self._factor.solve(b)
             info["solver"] = "direct"
         else:
-            x, it, res = block_cg(self.matrix, b, 1.0 / self.diagonal, x0, self.rtol, self.maxiter)
-            info.update(solver="cg", iterations=it.tolist(), relative_residual=res.tolist(), rtol=self.rtol)
+            if self._parts is None:
+                self._parts = row_parts(self.matrix, self.threads)
+            x, it, res = block_cg(self.matrix, b, 1.0 / self.diagonal, x0, self.rtol, self.maxiter,
+                                  parts=self._parts)
+            info.update(solver="cg", iterations=it.tolist(), relative_residual=res.tolist(), rtol=self.rtol,
+                        threads=len(self._parts))
         if self._new_of_old is not None:
             x = x[self._new_of_old]
         info["time"] = time.perf_counter() - t0
@@ -415,7 +475,7 @@ class L2Projector:
 
 
 def project_l2(field: GaussField, lumped=False, across_regions=False, solver="cg", rtol=1e-10,
-               maxiter=None, renumber="auto") -> NodalField:
+               maxiter=None, renumber="auto", threads=None) -> NodalField:
     """Global L2 projection of ``field`` to the nodes (Hinton & Campbell 1974).
 
     Builds an :class:`L2Projector` and projects once; keep a projector to
@@ -423,7 +483,7 @@ def project_l2(field: GaussField, lumped=False, across_regions=False, solver="cg
     options.
     """
     proj = L2Projector(field.mesh, lumped=lumped, across_regions=across_regions, solver=solver,
-                       rtol=rtol, maxiter=maxiter, renumber=renumber)
+                       rtol=rtol, maxiter=maxiter, renumber=renumber, threads=threads)
     return proj.project(field)
 
 

@@ -1,0 +1,416 @@
+"""Building blocks of the parametric meshers.
+
+A model is assembled from mapped blocks: each block is the unit square meshed
+by :func:`toolkit.models.grid.rectangle_mesh` (which owns the connectivity of
+every element type), its lattice coordinates re-spaced along each direction by
+given element-boundary distributions (mid-side nodes at the parametric middle
+of their element), then mapped to the plane by the transfinite (Coons)
+interpolation of its four side curves (Gordon & Hall 1973):
+
+    x(s, t) = (1-t) B(s) + t T(s) + (1-s) L(t) + s R(t)
+              - [(1-s)(1-t) B(0) + s(1-t) B(1) + (1-s) t T(0) + s t T(1)]
+
+Blocks that share a side are given the same curve and distribution, so their
+nodes coincide; coincident nodes are merged and the result is checked for
+conformity (every boundary edge must carry a name).  Everything is vectorised
+over nodes and cells.
+"""
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+
+from ..elements import get_element
+from ..mesh import Mesh
+from .grid import rectangle_mesh
+
+__all__ = ["Curve", "line", "arc", "join", "uniform", "graded", "Block", "assemble", "boundary_edges",
+           "edges_on", "Model", "QUAD_TYPES"]
+
+QUAD_TYPES = ("quad4", "quad8", "quad9")
+
+
+# ---------------------------------------------------------------------------
+# Curves: maps [0, 1] -> plane, parametrised proportionally to arc length
+# ---------------------------------------------------------------------------
+@dataclass(frozen=True, eq=False)
+class Curve:
+    """A plane curve ``x(u)``, ``u`` in [0, 1] proportional to arc length."""
+
+    fn: object
+    length: float
+
+    def __call__(self, u):
+        return self.fn(np.asarray(u, dtype=float))
+
+    @property
+    def start(self):
+        return self(np.array([0.0]))[0]
+
+    @property
+    def end(self):
+        return self(np.array([1.0]))[0]
+
+    def reversed(self) -> "Curve":
+        return Curve(lambda u: self.fn(1.0 - u), self.length)
+
+
+def line(p, q) -> Curve:
+    p, q = np.asarray(p, float), np.asarray(q, float)
+    return Curve(lambda u: p[None, :] + u[:, None] * (q - p)[None, :], float(np.linalg.norm(q - p)))
+
+
+def arc(centre, radius, a0, a1) -> Curve:
+    """Circular arc from angle ``a0`` to ``a1`` (radians, counter-clockwise if a1 > a0)."""
+    c = np.asarray(centre, float)
+
+    def fn(u):
+        a = a0 + u * (a1 - a0)
+        return c[None, :] + radius * np.stack([np.cos(a), np.sin(a)], axis=-1)
+    return Curve(fn, float(abs(a1 - a0) * radius))
+
+
+def join(*curves) -> Curve:
+    """Curves end to end (each must start where the previous ends); zero-length
+    pieces are dropped.  The parameter stays proportional to arc length."""
+    cs = [c for c in curves if c.length > 0]
+    if not cs:
+        raise ValueError("join: all pieces have zero length")
+    L = np.array([c.length for c in cs])
+    bounds = np.concatenate([[0.0], np.cumsum(L) / L.sum()])
+
+    def fn(u):
+        out = np.empty((len(u), 2))
+        piece = np.clip(np.searchsorted(bounds, u, side="right") - 1, 0, len(cs) - 1)
+        for i, c in enumerate(cs):
+            sel = piece == i
+            if sel.any():
+                out[sel] = c((u[sel] - bounds[i]) / (bounds[i + 1] - bounds[i]))
+        return out
+    return Curve(fn, float(L.sum()))
+
+
+# ---------------------------------------------------------------------------
+# Element-boundary distributions on [0, 1]
+# ---------------------------------------------------------------------------
+def uniform(n: int) -> np.ndarray:
+    return np.linspace(0.0, 1.0, int(n) + 1)
+
+
+def graded(length: float, first: float, last: float | None = None, growth: float = 1.2,
+           at: str = "start") -> np.ndarray:
+    """Element boundaries (fractions of ``length``) with sizes starting at
+    about ``first`` and growing by ``growth`` per element up to ``last``
+    (then constant), scaled to fit ``length`` exactly.  ``at="end"`` puts the
+    fine end at 1 instead of 0."""
+    if length <= 0 or first <= 0:
+        raise ValueError(f"graded: length and first size must be positive (got {length}, {first})")
+    last = max(first, last if last is not None else length)
+    if first >= length:
+        sizes = np.array([length])
+    else:
+        ng = int(np.floor(np.log(last / first) / np.log(growth))) + 1 if last > first else 1
+        grow = first * growth ** np.arange(ng)
+        grow = np.minimum(grow, last)
+        csum = np.cumsum(grow)
+        if csum[-1] >= length:
+            k = int(np.searchsorted(csum, length))
+            sizes = grow[:k + 1]
+        else:
+            nrest = int(np.ceil((length - csum[-1]) / last))
+            sizes = np.concatenate([grow, np.full(nrest, last)])
+    b = np.concatenate([[0.0], np.cumsum(sizes)])
+    b = b / b[-1]
+    if at == "end":
+        b = 1.0 - b[::-1]
+    elif at != "start":
+        raise ValueError(f"graded: at must be 'start' or 'end', got {at!r}")
+    b[0], b[-1] = 0.0, 1.0
+    return b
+
+
+def _respace(u, bounds):
+    """Map uniform lattice coordinates (multiples of 1/(n*order)) to the
+    distribution ``bounds`` (n+1 element boundaries), linearly inside each
+    element so mid-side nodes stay at the parametric middle."""
+    n = len(bounds) - 1
+    return np.interp(u * n, np.arange(n + 1), bounds)
+
+
+# ---------------------------------------------------------------------------
+# Blocks
+# ---------------------------------------------------------------------------
+@dataclass(eq=False)
+class Block:
+    """A four-sided mapped block.
+
+    ``bottom`` and ``top`` run in ``s`` (left to right), ``left`` and
+    ``right`` in ``t`` (bottom to top); corners must meet.  ``s`` and ``t``
+    are element-boundary distributions (see :func:`graded`).  ``names`` maps
+    a side ("bottom", "right", "top", "left") to the name of the model edge
+    it belongs to (free or loaded surfaces, symmetry planes), or ``None`` for
+    sides shared with another block.  The block must be oriented so that
+    (s, t) is right-handed.
+    """
+
+    bottom: Curve
+    right: Curve
+    top: Curve
+    left: Curve
+    s: np.ndarray
+    t: np.ndarray
+    names: dict = field(default_factory=dict)
+    region: int = 0
+
+    def mesh_arrays(self, etype):
+        unit = rectangle_mesh(etype, len(self.s) - 1, len(self.t) - 1)
+        cells = unit.block(etype).cells.astype(np.int64)
+        uv = unit.nodes
+        s = _respace(uv[:, 0], self.s)
+        t = _respace(uv[:, 1], self.t)
+        B, T, L, R = self.bottom(s), self.top(s), self.left(t), self.right(t)
+        P00, P10, P01, P11 = self.bottom.start, self.bottom.end, self.top.start, self.top.end
+        for a, b, what in ((P00, self.left.start, "bottom-left"), (P10, self.right.start, "bottom-right"),
+                           (P01, self.left.end, "top-left"), (P11, self.right.end, "top-right")):
+            if np.linalg.norm(a - b) > 1e-9 * max(1.0, np.abs(a).max()):
+                raise ValueError(f"Block: the {what} corner does not close ({a} vs {b})")
+        S, Tt = s[:, None], t[:, None]
+        x = ((1 - Tt) * B + Tt * T + (1 - S) * L + S * R
+             - ((1 - S) * (1 - Tt) * P00 + S * (1 - Tt) * P10 + (1 - S) * Tt * P01 + S * Tt * P11))
+        sides = {"bottom": uv[:, 1] == 0.0, "top": uv[:, 1] == 1.0,
+                 "left": uv[:, 0] == 0.0, "right": uv[:, 0] == 1.0}
+        return x, cells, sides
+
+
+def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, extra_sets=None):
+    """Mesh a list of blocks into one conforming mesh.
+
+    Returns ``(mesh, edges, node_sets)``: ``edges`` maps each side name to
+    its boundary edges (node tuples in the cell's local counter-clockwise
+    order, corner, corner[, mid]); ``node_sets`` maps names to node rows.
+    ``mirror=("y", 0.0[, renames])`` also adds the mirror image about the
+    line y = 0 (or ``("x", c)``), merged along the line; the mirrored sides
+    keep their names unless ``renames`` {name: mirrored name} says otherwise.
+    Raises ``ValueError`` if the merged mesh is not conforming (a boundary
+    edge no side name covers).
+    """
+    from scipy.spatial import cKDTree
+
+    et = get_element(etype)
+    if et.name not in QUAD_TYPES:
+        raise ValueError(f"element type must be one of {QUAD_TYPES}, got {etype!r}")
+    xs, cs, sets, regs = [], [], {}, []
+    off = 0
+    for blk in blocks:
+        x, c, sides = blk.mesh_arrays(et.name)
+        xs.append(x); cs.append(c + off); regs.append(np.full(len(c), blk.region))
+        for side, name in blk.names.items():
+            if name is None:
+                continue
+            for nm in (name if isinstance(name, (tuple, list)) else (name,)):
+                sets.setdefault(nm, []).append(np.flatnonzero(sides[side]) + off)
+        off += len(x)
+    X = np.concatenate(xs)
+    C = np.concatenate(cs)
+    R = np.concatenate(regs)
+    sets = {k: np.concatenate(v) for k, v in sets.items()}
+    if mirror is not None:
+        ax = {"x": 0, "y": 1}[mirror[0]]
+        Xm = X.copy()
+        Xm[:, ax] = 2 * mirror[1] - Xm[:, ax]
+        perm = _reflect_perm(et)
+        C = np.concatenate([C, C[:, perm] + len(X)])
+        R = np.concatenate([R, R])
+        X = np.concatenate([X, Xm])
+        rename = mirror[2] if len(mirror) > 2 else {}
+        msets = {}
+        for k, v in sets.items():
+            msets.setdefault(k, []).append(v)
+            msets.setdefault(rename.get(k, k), []).append(v + len(Xm))
+        sets = {k: np.concatenate(v) for k, v in msets.items()}
+    size = float(np.ptp(X, axis=0).max())
+    tree = cKDTree(X)
+    pairs = tree.query_pairs(tol * size, output_type="ndarray")
+    rep = np.arange(len(X))
+    if len(pairs):
+        # union of coincident points: map each to the smallest index in its group
+        from scipy.sparse import coo_matrix
+        from scipy.sparse.csgraph import connected_components
+        g = coo_matrix((np.ones(len(pairs)), (pairs[:, 0], pairs[:, 1])), shape=(len(X), len(X)))
+        _, lab = connected_components(g, directed=False)
+        first = np.full(lab.max() + 1, len(X))
+        np.minimum.at(first, lab, np.arange(len(X)))
+        rep = first[lab]
+    used, new = np.unique(rep, return_inverse=True)
+    nodes = X[used]
+    C = new[C]
+    sets = {k: np.unique(new[v]) for k, v in sets.items()}
+    mesh = Mesh(nodes, {et.name: C}, regions={et.name: R})
+    bnd = boundary_edges(mesh)
+    edges = {k: edges_on(mesh, v, bnd) for k, v in sets.items()}
+    named = np.zeros(len(bnd), dtype=bool)
+    for k, v in sets.items():
+        named |= np.isin(bnd, v).all(axis=1)
+    if not named.all():
+        e = bnd[np.flatnonzero(~named)[0]]
+        raise ValueError(f"mesher: the blocks do not conform: boundary edge {e.tolist()} at "
+                         f"{mesh.nodes[e[0]].round(6).tolist()} lies on no named side "
+                         f"({int((~named).sum())} such edges)")
+    for k, v in edges.items():
+        if len(v) == 0:
+            raise ValueError(f"mesher: named side {k!r} has no boundary edges")
+    return mesh, edges, sets
+
+
+def _reflect_perm(et):
+    """Local node permutation that keeps a cell counter-clockwise after its
+    nodes are mirrored: new node i takes old node perm[i], where the
+    reference node of perm[i] is the mirror image (η -> -η) of node i's."""
+    ref = et.nodes
+    img = ref * np.array([1.0, -1.0])
+    d = np.linalg.norm(ref[:, None, :] - img[None, :, :], axis=-1)
+    return np.argmin(d, axis=1)
+
+
+def boundary_edges(mesh: Mesh) -> np.ndarray:
+    """Every edge used by exactly one cell, as node tuples in the cell's own
+    (counter-clockwise) order: (m, 2) for linear, (m, 3) for quadratic types."""
+    out = []
+    n = mesh.nnodes
+    allkeys = []
+    for b in mesh.blocks:
+        for loc in b.element.edges:
+            a, c = b.cells[:, loc[0]].astype(np.int64), b.cells[:, loc[1]].astype(np.int64)
+            allkeys.append(np.minimum(a, c) * n + np.maximum(a, c))
+    keys, counts = np.unique(np.concatenate(allkeys), return_counts=True)
+    once = keys[counts == 1]
+    for b in mesh.blocks:
+        for loc in b.element.edges:
+            a, c = b.cells[:, loc[0]].astype(np.int64), b.cells[:, loc[1]].astype(np.int64)
+            k = np.minimum(a, c) * n + np.maximum(a, c)
+            sel = np.isin(k, once)
+            out.append(b.cells[sel][:, list(loc)].astype(np.int64))
+    widths = {o.shape[1] for o in out if len(o)}
+    if len(widths) > 1:
+        raise ValueError("boundary_edges: the mesh mixes linear and quadratic element edges")
+    return np.concatenate([o for o in out if o.shape[1] == max(widths)]) if widths else np.zeros((0, 2), np.int64)
+
+
+def edges_on(mesh: Mesh, nodes, boundary=None) -> np.ndarray:
+    """Boundary edges whose nodes all belong to ``nodes`` (node rows, a
+    boolean mask, or a callable of coordinates (n, 2) returning a mask)."""
+    if callable(nodes):
+        mask = np.asarray(nodes(mesh.nodes), dtype=bool)
+    else:
+        a = np.asarray(nodes)
+        if a.dtype == bool:
+            mask = a
+        else:
+            mask = np.zeros(mesh.nnodes, dtype=bool)
+            mask[a] = True
+    bnd = boundary_edges(mesh) if boundary is None else boundary
+    return bnd[mask[bnd].all(axis=1)]
+
+
+# ---------------------------------------------------------------------------
+# Model record
+# ---------------------------------------------------------------------------
+@dataclass(eq=False)
+class Model:
+    """A meshed model ready for :func:`toolkit.solve.solve`.
+
+    Attributes
+    ----------
+    kind : str          e.g. ``"plate_with_hole"``
+    mesh : Mesh
+    edges : dict name -> (m, 2|3) boundary edge node tuples
+    points : dict name -> node row
+    analysis : str      ``"plane_stress"``, ``"plane_strain"`` or ``"axisymmetric"``
+    thickness : float or None
+    loads, supports : the suggested load and support set
+    material : the default Material
+    geometry : dict of the input and derived dimensions
+    nominal : dict of nominal stresses (e.g. ``{"gross": ..., "net": ...}``)
+    notes : str
+    """
+
+    kind: str
+    mesh: Mesh
+    edges: dict
+    points: dict
+    analysis: str
+    thickness: float | None
+    loads: list
+    supports: list
+    material: object
+    geometry: dict
+    nominal: dict
+    notes: str = ""
+
+    def __repr__(self):
+        g = ", ".join(f"{k}={v:.4g}" if isinstance(v, float) else f"{k}={v}" for k, v in self.geometry.items())
+        return (f"Model({self.kind}, {self.analysis}, {self.mesh.nnodes} nodes, {self.mesh.ncells} cells; {g}; "
+                f"edges {sorted(self.edges)}; points {sorted(self.points)})")
+
+    def plot(self, ax=None, show_loads=True, show_supports=True, legend=True):
+        """Mesh (element edges drawn through mid-side nodes), named edges in
+        colour, load arrows and support markers.  Returns the axes."""
+        import matplotlib.pyplot as plt
+        from matplotlib.collections import LineCollection
+        from ..solve import Fixed, Roller, Displacement, Traction, Pressure, PointLoad, edge_quadrature
+
+        if ax is None:
+            _, ax = plt.subplots(figsize=(7, 5))
+        segs = []
+        for b in self.mesh.blocks:
+            for loc in b.element.edges:
+                pts = self.mesh.nodes[b.cells[:, [loc[0], loc[2], loc[1]] if len(loc) == 3 else list(loc)]]
+                segs.append(pts)
+        ax.add_collection(LineCollection(np.concatenate(segs), colors="0.6", linewidths=0.4))
+        cmap = plt.get_cmap("tab10")
+        for i, (name, e) in enumerate(sorted(self.edges.items())):
+            idx = [0, 2, 1] if e.shape[1] == 3 else [0, 1]
+            ax.add_collection(LineCollection(self.mesh.nodes[e[:, idx]], colors=[cmap(i % 10)], linewidths=2.0,
+                                             label=name))
+        size = float(np.ptp(self.mesh.nodes, axis=0).max())
+        if show_loads:
+            for ld in self.loads:
+                if isinstance(ld, (Traction, Pressure)):
+                    e = self.edges[ld.edge] if isinstance(ld.edge, str) else np.asarray(ld.edge)
+                    xs, ts = [], []
+                    for g in edge_quadrature(self.mesh, e, npoints=1):
+                        x = g["x"][:, 0]
+                        c = x[:, 0 if ld.along in (0, "x", "r") else 1] - ld.origin
+                        if isinstance(ld, Traction):
+                            t = np.asarray(ld.value, float)[None, :] + (
+                                0 if ld.gradient is None else c[:, None] * np.asarray(ld.gradient, float))
+                        else:
+                            t = -(ld.value + ld.gradient * c)[:, None] * g["normal"][:, 0]
+                        xs.append(x); ts.append(t)
+                    x, t = np.concatenate(xs), np.concatenate(ts)
+                    sc = 0.08 * size / max(np.abs(t).max(), 1e-300)
+                    ax.quiver(x[:, 0], x[:, 1], t[:, 0] * sc, t[:, 1] * sc, angles="xy", scale_units="xy", scale=1,
+                              color="tab:red", width=0.003)
+                elif isinstance(ld, PointLoad):
+                    node = self.points[ld.where] if isinstance(ld.where, str) else ld.where
+                    p = self.mesh.nodes[node]
+                    F = np.asarray(ld.force, float)
+                    F = 0.1 * size * F / max(np.linalg.norm(F), 1e-300)
+                    ax.annotate("", p + F, p, arrowprops=dict(arrowstyle="<-", color="tab:red"))
+        if show_supports:
+            for s in self.supports:
+                w = s.where
+                if isinstance(w, str):
+                    nodes = np.unique(self.edges[w]) if w in self.edges else np.atleast_1d(self.points[w])
+                else:
+                    nodes = np.atleast_1d(w)
+                p = self.mesh.nodes[nodes]
+                marker = {Fixed: "s", Roller: "o", Displacement: "^"}.get(type(s), "x")
+                ax.plot(p[:, 0], p[:, 1], linestyle="none", marker=marker, markersize=3, color="tab:blue")
+        ax.set_aspect("equal")
+        ax.autoscale_view()
+        ax.set_title(f"{self.kind} ({self.mesh.ncells} {self.mesh.blocks[0].name} cells, {self.analysis})")
+        if legend:
+            ax.legend(loc="best", fontsize="small")
+        return ax
