@@ -412,6 +412,7 @@ def machine_info():
         skv = "not installed"
     lines.append(f"versions: python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}, "
                  f"scikit-fem {skv}, stresspath {toolkit.__version__}")
+    lines.append(f"load    : {' '.join(f'{v:.2f}' for v in os.getloadavg())} (1, 5, 15 min averages at the start)")
     return lines
 
 
@@ -524,7 +525,8 @@ def main(argv=None):
         os.rmdir(tmp)
 
     print_tables(rows, memory, sizes)
-    print(f"\ntotal wall time {time.perf_counter() - t_start:.0f} s")
+    print(f"\ntotal wall time {time.perf_counter() - t_start:.0f} s; load average at the end "
+          f"{' '.join(f'{v:.2f}' for v in os.getloadavg())} (other processes on this machine skew the times)")
     return 0
 
 

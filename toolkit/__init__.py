@@ -16,3 +16,14 @@ __all__ = ["ELEMENTS", "ElementType", "QuadratureRule", "get_element", "Mesh", "
            "von_mises", "principal", "tresca", "hydrostatic", "max_abs_principal", "rotate_2d", "rotate",
            "hot_spot_stress", "linearize", "hot_spot_concentration", "SNCurve", "sn_curve", "thickness_factor",
            "miner_damage", "fatigue_check", "static_check", "CheckResult", "grid_convergence"]
+
+from .paths import PointLocator, sample, raw_along, line, polyline, arc, edge_path
+from .spr import recover_spr
+from .indicator import error_indicator
+
+__all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "edge_path", "recover_spr",
+            "error_indicator"]
+
+from .io import read_results, write_results, write_vtu
+
+__all__ += ["read_results", "write_results", "write_vtu"]

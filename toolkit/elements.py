@@ -181,16 +181,26 @@ def _total_exponents(p: int, dim: int):
 
 
 def _monomials(xi: np.ndarray, exps: np.ndarray):
-    """P[p, j] = prod_d xi[p, d]**exps[j, d] and its gradient dP[p, j, d]."""
+    """P[p, j] = prod_d xi[p, d]**exps[j, d] and its gradient dP[p, j, d].
+
+    Powers come from a table built by repeated multiplication
+    (pow_[e, p, d] = xi[p, d]**e), so no floating-point ``**`` is evaluated."""
     xi = np.asarray(xi, dtype=float)
-    P = np.prod(xi[:, None, :] ** exps[None, :, :], axis=-1)
-    dim = xi.shape[1]
-    dP = np.empty(P.shape + (dim,))
+    npts, dim = xi.shape
+    top = int(exps.max()) if exps.size else 0
+    pow_ = np.ones((top + 2, npts, dim))
+    for e in range(1, top + 1):
+        pow_[e] = pow_[e - 1] * xi
+    cols = np.arange(dim)
+    # factors[p, j, d] = xi[p, d]**exps[j, d]
+    factors = pow_[exps, :, cols].transpose(2, 0, 1)            # (j, d, p) -> (p, j, d)
+    P = np.prod(factors, axis=-1)
+    dP = np.empty((npts, len(exps), dim))
     for d in range(dim):
-        e = exps.copy()
-        coef = e[:, d].astype(float)
-        e[:, d] = np.maximum(e[:, d] - 1, 0)
-        dP[..., d] = coef * np.prod(xi[:, None, :] ** e[None, :, :], axis=-1)
+        lower = exps[:, d] - 1
+        dfac = np.where(lower >= 0, exps[:, d], 0)[None, :] * pow_[np.maximum(lower, 0), :, d].T
+        others = np.prod(np.delete(factors, d, axis=-1), axis=-1) if dim > 1 else 1.0
+        dP[..., d] = dfac * others
     return P, dP
 
 

@@ -6,7 +6,7 @@ import numpy as np
 from .elements import QuadratureRule
 from .mesh import Mesh
 
-__all__ = ["GaussField", "NodalField", "STRESS_2D", "STRESS_3D"]
+__all__ = ["GaussField", "NodalField", "RowLayout", "STRESS_2D", "STRESS_3D"]
 
 STRESS_2D = ("sxx", "syy", "sxy")
 STRESS_3D = ("sxx", "syy", "szz", "sxy", "syz", "sxz")
@@ -102,6 +102,65 @@ class GaussField:
         return f"GaussField({self.name!r}, components {self.components}, {parts})"
 
 
+class RowLayout:
+    """Maps (node, region of the cell) to a row of a nodal field.
+
+    ``layout`` is a :class:`NodalField` or a :class:`~toolkit.recovery.DofMap`
+    (anything with ``node`` and ``region`` arrays).  Where every node has
+    one row the region is ignored; where nodes carry one row per region the
+    row of the cell's region is used.
+    """
+
+    def __init__(self, mesh: Mesh, layout):
+        if isinstance(layout, NodalField) and layout.mesh is not mesh:
+            raise ValueError("the nodal field belongs to another mesh")
+        try:
+            node = np.asarray(layout.node, dtype=np.int64)
+            region = np.asarray(layout.region, dtype=np.int64)
+        except AttributeError:
+            raise ValueError("rows must be a NodalField or a DofMap (with node and region arrays)") from None
+        self.mesh = mesh
+        self.nrows = len(node)
+        if node.size and (node.min() < 0 or node.max() >= mesh.nnodes):
+            raise ValueError(f"row layout refers to node rows outside 0..{mesh.nnodes - 1}")
+        counts = np.bincount(node, minlength=mesh.nnodes)
+        self.split = bool(counts.max(initial=0) > 1)
+        if not self.split:
+            self._by_node = np.full(mesh.nnodes, -1, dtype=np.int64)
+            self._by_node[node] = np.arange(len(node))
+        else:
+            self._regions = np.unique(region)
+            R = len(self._regions)
+            keys = node * R + np.searchsorted(self._regions, region)
+            order = np.argsort(keys, kind="stable")
+            self._keys, self._rows, self._R = keys[order], order, R
+            if np.any(np.diff(self._keys) == 0):
+                raise ValueError("row layout has two rows for one (node, region) pair")
+
+    def lookup(self, nodes, regions) -> np.ndarray:
+        """Rows for node rows ``nodes`` of cells in ``regions`` (broadcast)."""
+        nodes = np.asarray(nodes, dtype=np.int64)
+        if not self.split:
+            rows = self._by_node[nodes]
+            bad = rows < 0
+            if bad.any():
+                raise ValueError(f"node {int(self.mesh.node_ids[nodes[bad].ravel()[0]])} has no row in the nodal "
+                                 f"field ({int(bad.sum())} such entries)")
+            return rows
+        regions = np.broadcast_to(np.asarray(regions, dtype=np.int64), nodes.shape)
+        ri = np.searchsorted(self._regions, regions)
+        ok = (ri < self._R) & (self._regions[np.minimum(ri, self._R - 1)] == regions)
+        keys = nodes * self._R + np.minimum(ri, self._R - 1)
+        pos = np.minimum(np.searchsorted(self._keys, keys), len(self._keys) - 1)
+        ok &= self._keys[pos] == keys
+        if not ok.all():
+            i = np.argwhere(~ok)[0]
+            raise ValueError(f"the nodal field has no row for node {int(self.mesh.node_ids[nodes[tuple(i)]])} in "
+                             f"region {int(regions[tuple(i)])} ({int((~ok).sum())} such entries); "
+                             "was it recovered on another region split?")
+        return self._rows[pos]
+
+
 class NodalField:
     """A continuous field: one value per (node, region) row.
 
@@ -169,23 +228,7 @@ class NodalField:
         is smoothed across regions.  Evaluate the field inside cell ``c``
         with ``N @ values[cell_rows[c]]``."""
         b = self.mesh.block(block)
-        if np.all(self.region == self.region[0]) and len(self.node) == len(np.unique(self.node)):
-            lookup = np.full(self.mesh.nnodes, -1, dtype=np.int64)
-            lookup[self.node] = np.arange(len(self.node))
-            rows = lookup[b.cells]
-        else:
-            regions = np.unique(self.region)
-            R = len(regions)
-            keys = self.node * R + np.searchsorted(regions, self.region)
-            order = np.argsort(keys)
-            want = b.cells.astype(np.int64) * R + np.searchsorted(regions, b.regions)[:, None]
-            pos = np.clip(np.searchsorted(keys[order], want), 0, len(keys) - 1)
-            rows = order[pos]
-            rows = np.where(keys[rows] == want, rows, -1)
-        if (rows < 0).any():
-            c = int(np.flatnonzero((rows < 0).any(axis=1))[0])
-            raise ValueError(f"{b.label(c)}: the nodal field has no value for some of its nodes")
-        return rows
+        return RowLayout(self.mesh, self).lookup(b.cells, b.regions[:, None])
 
     def __repr__(self):
         s = (f"NodalField({self.method or 'nodal'}: {len(self.node)} rows x {len(self.components)} "

@@ -296,9 +296,11 @@ def inverse_map(element, xe, x, tol=1e-12, maxiter=30):
         xi[idx] -= step
         # keep iterates bounded so far-away points do not overflow
         np.clip(xi, -10.0, 10.0, out=xi)
-        small = np.linalg.norm(r, axis=1) <= tol * size[idx]
+        # settled: the residual is at round-off of the coordinates, or the step is
+        scale = size[idx] + np.abs(x[idx]).max(axis=1)
+        small = (np.linalg.norm(r, axis=1) <= tol * scale) | (np.abs(step).max(axis=1) <= 1e-14)
         active[idx[small]] = False
     N, _ = et.evaluate(xi)
     err = np.linalg.norm(np.einsum("pk,pki->pi", N, xe) - x, axis=1)
-    return xi, err <= 1e-8 * size
+    return xi, err <= 1e-8 * size + 1e-12 * np.abs(x).max(axis=1)
 

@@ -21,6 +21,7 @@
 """
 from __future__ import annotations
 
+from abc import ABC, abstractmethod
 from dataclasses import dataclass
 import itertools
 import weakref
@@ -29,13 +30,13 @@ import numpy as np
 import scipy.sparse as sp
 
 from . import stress as _stress
-from .elements import local_field_matrix
-from .fields import GaussField, NodalField
+from .elements import ELEMENTS, local_field_matrix
+from .fields import GaussField, NodalField, RowLayout
 from .mesh import Mesh, inverse_map
 from .recovery import DofMap
 
 __all__ = [
-    "Location", "PointLocator", "RowLayout", "cell_rows",
+    "Location", "PointLocator",
     "Path", "Polyline", "Arc", "EdgePath", "PathSamples", "line", "polyline", "arc", "edge_path",
     "PathResult", "sample", "raw_along", "STRESS_QUANTITIES",
 ]
@@ -47,77 +48,6 @@ STRESS_QUANTITIES = ("snn", "stt", "snt", "von_mises", "s1", "s2", "s3", "tresca
 # ---------------------------------------------------------------------------
 # Rows of a nodal field
 # ---------------------------------------------------------------------------
-class RowLayout:
-    """Maps (node, region of the cell) to a row of a nodal field.
-
-    ``layout`` is a :class:`NodalField` or a :class:`~toolkit.recovery.DofMap`
-    (anything with ``node`` and ``region`` arrays), or ``None`` for the rows
-    :func:`~toolkit.project_l2` gives by default (one per (node, region)
-    pair, :class:`DofMap` with ``across_regions=False``).  Where every node has
-    one row the region is ignored; where nodes carry one row per region the
-    row of the cell's region is used.
-    """
-
-    def __init__(self, mesh: Mesh, layout=None):
-        if layout is None:
-            layout = DofMap(mesh, across_regions=False)
-        if isinstance(layout, NodalField) and layout.mesh is not mesh:
-            raise ValueError("the nodal field belongs to another mesh")
-        try:
-            node = np.asarray(layout.node, dtype=np.int64)
-            region = np.asarray(layout.region, dtype=np.int64)
-        except AttributeError:
-            raise ValueError("rows must be a NodalField or a DofMap (with node and region arrays)") from None
-        self.mesh = mesh
-        self.nrows = len(node)
-        if node.size and (node.min() < 0 or node.max() >= mesh.nnodes):
-            raise ValueError(f"row layout refers to node rows outside 0..{mesh.nnodes - 1}")
-        counts = np.bincount(node, minlength=mesh.nnodes)
-        self.split = bool(counts.max(initial=0) > 1)
-        if not self.split:
-            self._by_node = np.full(mesh.nnodes, -1, dtype=np.int64)
-            self._by_node[node] = np.arange(len(node))
-        else:
-            self._regions = np.unique(region)
-            R = len(self._regions)
-            keys = node * R + np.searchsorted(self._regions, region)
-            order = np.argsort(keys, kind="stable")
-            self._keys, self._rows, self._R = keys[order], order, R
-            if np.any(np.diff(self._keys) == 0):
-                raise ValueError("row layout has two rows for one (node, region) pair")
-
-    def lookup(self, nodes, regions) -> np.ndarray:
-        """Rows for node rows ``nodes`` of cells in ``regions`` (broadcast)."""
-        nodes = np.asarray(nodes, dtype=np.int64)
-        if not self.split:
-            rows = self._by_node[nodes]
-            bad = rows < 0
-            if bad.any():
-                raise ValueError(f"node {int(self.mesh.node_ids[nodes[bad].ravel()[0]])} has no row in the nodal "
-                                 f"field ({int(bad.sum())} such entries)")
-            return rows
-        regions = np.broadcast_to(np.asarray(regions, dtype=np.int64), nodes.shape)
-        ri = np.searchsorted(self._regions, regions)
-        ok = (ri < self._R) & (self._regions[np.minimum(ri, self._R - 1)] == regions)
-        keys = nodes * self._R + np.minimum(ri, self._R - 1)
-        pos = np.minimum(np.searchsorted(self._keys, keys), len(self._keys) - 1)
-        ok &= self._keys[pos] == keys
-        if not ok.all():
-            i = np.argwhere(~ok)[0]
-            raise ValueError(f"the nodal field has no row for node {int(self.mesh.node_ids[nodes[tuple(i)]])} in "
-                             f"region {int(regions[tuple(i)])} ({int((~ok).sum())} such entries); "
-                             "was it recovered on another region split?")
-        return self._rows[pos]
-
-
-def cell_rows(nodal, name) -> np.ndarray:
-    """Rows of ``nodal`` (a NodalField or DofMap) for every node of every cell
-    of block ``name``, (cells, nodes), each cell reading its own region."""
-    mesh = nodal.mesh
-    b = mesh.block(name)
-    return RowLayout(mesh, nodal).lookup(b.cells, b.regions[:, None])
-
-
 # ---------------------------------------------------------------------------
 # Point location
 # ---------------------------------------------------------------------------
@@ -208,15 +138,52 @@ def _check_outside(outside):
 
 
 _LOCATORS: "weakref.WeakKeyDictionary[Mesh, PointLocator]" = weakref.WeakKeyDictionary()
+_LINEAR = {"quad": "quad4", "tri": "tri3", "hex": "hex8", "tet": "tet4"}
+_LEBESGUE: dict = {}
+
+
+def _higher_node_bound(et) -> float:
+    """``max_xi sum_{a not a corner} |N_a(xi)|`` over the reference element
+    (on a 21-point-per-direction lattice, plus 10 %)."""
+    if et.name not in _LEBESGUE:
+        t = np.linspace(0.0, 1.0, 21) if et.is_simplex else np.linspace(-1.0, 1.0, 21)
+        g = np.stack(np.meshgrid(*([t] * et.dim), indexing="ij"), -1).reshape(-1, et.dim)
+        if et.is_simplex:
+            g = g[g.sum(axis=1) <= 1 + 1e-12]
+        N = et.shape_functions(g)
+        _LEBESGUE[et.name] = 1.1 * float(np.abs(N[:, et.ncorners:]).sum(axis=1).max())
+    return _LEBESGUE[et.name]
+
+
+def _cell_boxes(mesh, b):
+    """Axis-aligned boxes that hold every cell of block ``b``.
+
+    Linear cells lie in the convex hull of their nodes.  A higher-order cell
+    is ``x(xi) = x_lin(xi) + sum_a N_a(xi) d_a``, with ``x_lin`` the map
+    through its corners alone (inside the corners' box) and ``d_a`` the
+    offset of each other node from ``x_lin`` at that node, so it lies within
+    the corners' box enlarged by ``max_xi sum |N_a| * max |d_a|``.
+    """
+    et = b.element
+    xe = mesh.nodes[b.cells]
+    corners = xe[:, :et.ncorners]
+    l, h = corners.min(axis=1), corners.max(axis=1)
+    pad = 1e-9 * (h - l).max(axis=1, keepdims=True) + 1e-13 * (np.abs(xe).max() + 1.0)
+    if et.nnodes > et.ncorners:
+        lin = ELEMENTS[_LINEAR[et.shape]]
+        Nl = lin.shape_functions(et.nodes[et.ncorners:])                 # (higher nodes, corners)
+        dev = xe[:, et.ncorners:] - np.einsum("hc,mci->mhi", Nl, corners)
+        pad = pad + _higher_node_bound(et) * np.abs(dev).max(axis=(1, 2))[:, None]
+    return l - pad, h + pad
 
 
 class PointLocator:
     """Finds the cell and natural coordinates of points; built once per mesh.
 
-    Method: every cell's axis-aligned bounding box (of its nodes; enlarged by
-    25 % for quadratic elements, whose curved edges may bulge past their
-    nodes) is indexed by a :class:`scipy.spatial.cKDTree` over the box
-    centres, one tree per octave of box size so that graded meshes keep few
+    Method: every cell's axis-aligned bounding box (of its corners, enlarged
+    by a bound on how far curved quadratic edges and faces can bulge, see
+    :func:`_cell_boxes`) is indexed by a :class:`scipy.spatial.cKDTree` over
+    the box centres, one tree per octave of box size so that graded meshes keep few
     candidates per point.  For each point the candidate cells whose boxes hold
     it are tried in (block, cell) order with the vectorised Newton inverse
     isoparametric map (:func:`toolkit.mesh.inverse_map`) over all (point,
@@ -243,12 +210,9 @@ class PointLocator:
         self.tol = float(tol)
         lo, hi, blk, cel, reg = [], [], [], [], []
         for bi, b in enumerate(mesh.blocks):
-            xe = mesh.nodes[b.cells]
-            l, h = xe.min(axis=1), xe.max(axis=1)
-            size = (h - l).max(axis=1, keepdims=True)
-            pad = (0.25 if b.element.degree > 1 else 1e-9) * size + 1e-12 * np.abs(xe).max()
-            lo.append(l - pad)
-            hi.append(h + pad)
+            l, h = _cell_boxes(mesh, b)
+            lo.append(l)
+            hi.append(h)
             blk.append(np.full(len(b), bi, dtype=np.int64))
             cel.append(np.arange(len(b), dtype=np.int64))
             reg.append(b.regions)
@@ -328,7 +292,7 @@ class PointLocator:
         return Location(mesh, x, block, cell, xi)
 
     # -- evaluation operator ------------------------------------------------
-    def operator(self, points, rows=None, region=None, outside="raise") -> sp.csr_matrix:
+    def operator(self, points, region=None, rows=None, outside="raise") -> sp.csr_matrix:
         """Sparse matrix ``A`` (points x rows) with ``A @ nodal.values`` the
         nodal field at ``points``: row ``p`` holds ``N_a(xi_p)`` of the cell
         holding point ``p`` in the columns of that cell's nodes.
@@ -350,7 +314,8 @@ class PointLocator:
         mesh = self.mesh
         if location.mesh is not mesh:
             raise ValueError("the location belongs to another mesh")
-        return _operator(location, RowLayout(mesh, rows), outside, distances)
+        layout = RowLayout(mesh, rows if rows is not None else DofMap(mesh, across_regions=False))
+        return _operator(location, layout, outside, distances)
 
     def evaluate(self, nodal: NodalField, points, region=None, outside="raise") -> np.ndarray:
         """``nodal`` at ``points``: (p, components)."""
@@ -358,7 +323,7 @@ class PointLocator:
             raise ValueError("evaluate needs a NodalField")
         if nodal.mesh is not self.mesh:
             raise ValueError("the nodal field belongs to another mesh than this locator")
-        return self.operator(points, nodal, region, outside) @ nodal.values
+        return self.operator(points, region, nodal, outside) @ nodal.values
 
 
 def _operator(loc: Location, layout: RowLayout, outside, distances=None):
@@ -401,7 +366,7 @@ class PathSamples:
     normals: np.ndarray | None
 
 
-class Path:
+class Path(ABC):
     """A curve parametrised by arc length ``0 <= s <= length``.
 
     Subclasses give ``dim``, ``length``, ``label`` and ``_at(s) -> (points,
@@ -464,8 +429,13 @@ class Path:
         """Cells of the samples when the path knows them (edge paths)."""
         return None
 
-    def _at(self, d):  # pragma: no cover - abstract
-        raise NotImplementedError
+    @abstractmethod
+    def _at(self, d):
+        """Points and unit tangents at arc lengths ``d``."""
+
+    def shifted(self, offset: float) -> "Path":
+        """The path moved by ``offset`` along its normal (see subclasses)."""
+        raise ValueError(f"a {type(self).__name__} cannot be shifted; build a new path instead")
 
     def __repr__(self):
         return f"{type(self).__name__}({self.label!r}, length {self.length:.6g}, {self.dim}D)"
@@ -508,6 +478,13 @@ class Polyline(Path):
         self.length = float(self._cum[-1])
         self.normal_ref = _normal_ref(normal, self.dim, label)
 
+    def shifted(self, offset: float) -> "Polyline":
+        """A copy translated by ``offset`` along the first segment's normal (2D)."""
+        if self.dim != 2:
+            raise ValueError(f"{self.label}: only 2D paths can be shifted along their normal")
+        n0 = self._normals(self._t[:1])[0]
+        return Polyline(self.vertices + float(offset) * n0, label=self.label)
+
     def _at(self, d):
         seg = np.clip(np.searchsorted(self._cum, d, side="right") - 1, 0, len(self._t) - 1)
         x = self.vertices[seg] + (d - self._cum[seg])[:, None] * self._t[seg]
@@ -548,6 +525,13 @@ class Arc(Path):
         self.dim = 2
         self.label = "arc"
         self.length = self.radius * abs(np.radians(self.angle1 - self.angle0))
+
+    def shifted(self, offset: float) -> "Arc":
+        """The concentric arc moved by ``offset`` along the normal."""
+        r = self.radius - self._sign * float(offset)
+        if r <= 0:
+            raise ValueError(f"arc: a shift of {offset} leaves no arc (radius {r:.6g})")
+        return Arc(self.centre, r, self.angle0, self.angle1)
 
     def _at(self, d):
         a = self._a0 + self._sign * d / self.radius

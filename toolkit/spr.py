@@ -31,15 +31,15 @@ Choices made here (each is the usual one):
   boundary nodes take values from interior patches.  Nodes no interior patch
   reaches (coarse meshes, sharp corners of a region) then take the fit of the
   boundary vertex patches containing them, where those fits are determined.
-  Fits whose least-squares matrix is rank-deficient (singular value ratio
-  below ``rcond``) are not used.  A node left without any value raises
+  Fits whose least-squares matrix is rank-deficient (in its QR factors
+  ``min |R_ii| < rcond max |R_ii|``) are not used.  A node left without any value raises
   ValueError.  The counts are in ``info``.
 * No smoothing across region boundaries unless ``across_regions=True``
   (rows from :class:`~toolkit.recovery.DofMap`, as in ``project_l2``).
 
 Vectorised: patches are grouped by their number of sampling points and
 polynomial degree and each group is solved as one stack of small
-least-squares problems (batched SVD); there is no loop over nodes.
+least-squares problems (batched QR); there is no loop over nodes.
 """
 from __future__ import annotations
 
@@ -75,11 +75,12 @@ def patch_exponents(dim: int, degree: int) -> np.ndarray:
 
 def _monomials(z, exps) -> np.ndarray:
     """``P[..., j] = prod_d z[..., d] ** exps[j, d]`` for exponents 0..2."""
-    out = np.ones(z.shape[:-1] + (len(exps),))
+    out = None
     for d in range(z.shape[-1]):
         zd = z[..., d]
         powers = np.stack([np.ones_like(zd), zd, zd * zd], axis=-1)
-        out *= powers[..., exps[:, d]]
+        f = powers[..., exps[:, d]]
+        out = f if out is None else np.multiply(out, f, out=out)
     return out
 
 
@@ -96,8 +97,13 @@ def _boundary_dofs(mesh, dofs) -> np.ndarray:
             k = np.sort(cd[:, list(f)], axis=1)
             keys.append(np.pad(k, ((0, 0), (0, 4 - k.shape[1])), constant_values=-1))
     keys = np.concatenate(keys)
-    uniq, inv, counts = np.unique(keys, axis=0, return_inverse=True, return_counts=True)
-    once = uniq[counts == 1].ravel()
+    if mesh.dim == 2:               # edges: one integer key per edge
+        k1 = keys[:, 0] * dofs.ndof + keys[:, 1]
+        _, first, counts = np.unique(k1, return_index=True, return_counts=True)
+        once = keys[first[counts == 1], :2].ravel()
+    else:
+        uniq, counts = np.unique(keys, axis=0, return_counts=True)
+        once = uniq[counts == 1].ravel()
     boundary = np.zeros(dofs.ndof, dtype=bool)
     boundary[once[once >= 0]] = True
     return boundary
@@ -115,8 +121,8 @@ def recover_spr(field: GaussField, across_regions: bool = False, rcond: float = 
         Patches span region boundaries (default: a node shared by two regions
         gets one value per region, as with ``project_l2``).
     rcond : float
-        Patch fits whose singular values fall below ``rcond`` times the
-        largest are rank-deficient and not used.
+        Patch fits with ``min |R_ii| < rcond max |R_ii|`` in the QR factors
+        of their least-squares matrix are rank-deficient and not used.
     """
     if not isinstance(field, GaussField):
         raise ValueError("recover_spr needs a GaussField")
@@ -216,11 +222,14 @@ def recover_spr(field: GaussField, across_regions: bool = False, rcond: float = 
             A = _monomials(d / h[:, None, None], exps)                      # (G, s, t)
             b = V[idx]                                                       # (G, s, a)
             if s >= len(exps):
-                # least squares by SVD: a = V diag(1/sv) U^T b
-                U, sv, Vt = np.linalg.svd(A, full_matrices=False)
-                ok = sv[:, -1] > rcond * sv[:, 0]
-                Utb = np.matmul(U.transpose(0, 2, 1), b) / np.where(sv > 0, sv, 1.0)[:, :, None]
-                coef = np.matmul(Vt.transpose(0, 2, 1), Utb)                  # (G, t, a)
+                # least squares by QR: A = Q R, R a = Q^T b; a column that depends
+                # on the ones before it gives a (near) zero diagonal entry of R
+                Q, R = np.linalg.qr(A)
+                dg = np.abs(np.diagonal(R, axis1=1, axis2=2))
+                ok = dg.min(axis=1) > rcond * dg.max(axis=1)
+                coef = np.zeros((len(grp), len(exps), ncomp))
+                if ok.any():
+                    coef[ok] = np.linalg.solve(R[ok], np.matmul(Q[ok].transpose(0, 2, 1), b[ok]))
             else:
                 ok = np.zeros(len(grp), dtype=bool)
                 coef = np.zeros((len(grp), len(exps), ncomp))

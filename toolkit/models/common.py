@@ -26,7 +26,7 @@ from ..mesh import Mesh
 from .grid import rectangle_mesh
 
 __all__ = ["Curve", "line", "arc", "join", "uniform", "graded", "Block", "assemble", "boundary_edges",
-           "edges_on", "Model", "QUAD_TYPES"]
+           "edges_on", "cell_edges_on", "Model", "QUAD_TYPES"]
 
 QUAD_TYPES = ("quad4", "quad8", "quad9")
 
@@ -183,7 +183,7 @@ class Block:
         return x, cells, sides
 
 
-def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, extra_sets=None):
+def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, internal=()):
     """Mesh a list of blocks into one conforming mesh.
 
     Returns ``(mesh, edges, node_sets)``: ``edges`` maps each side name to
@@ -191,7 +191,13 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, extra_sets=None):
     order, corner, corner[, mid]); ``node_sets`` maps names to node rows.
     ``mirror=("y", 0.0[, renames])`` also adds the mirror image about the
     line y = 0 (or ``("x", c)``), merged along the line; the mirrored sides
-    keep their names unless ``renames`` {name: mirrored name} says otherwise.
+    keep their names unless ``renames`` {name: mirrored name} says otherwise;
+    a name renamed to ``None`` is dropped (it lies on the mirror line).
+    ``swap_xy=True`` exchanges the coordinates at the end (an (axial,
+    radial) layout becomes (r, z) for axisymmetry), keeping cells
+    counter-clockwise.  Names in ``internal`` mark lines inside the body
+    (e.g. a section cut); they get node sets but no boundary edges (use
+    :func:`cell_edges_on`).
     Raises ``ValueError`` if the merged mesh is not conforming (a boundary
     edge no side name covers).
     """
@@ -226,6 +232,8 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, extra_sets=None):
         rename = mirror[2] if len(mirror) > 2 else {}
         msets = {}
         for k, v in sets.items():
+            if k in rename and rename[k] is None:
+                continue
             msets.setdefault(k, []).append(v)
             msets.setdefault(rename.get(k, k), []).append(v + len(Xm))
         sets = {k: np.concatenate(v) for k, v in msets.items()}
@@ -246,12 +254,16 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, extra_sets=None):
     nodes = X[used]
     C = new[C]
     sets = {k: np.unique(new[v]) for k, v in sets.items()}
+    if swap_xy:
+        nodes = nodes[:, ::-1].copy()
+        C = C[:, _reflect_perm(et)]
     mesh = Mesh(nodes, {et.name: C}, regions={et.name: R})
     bnd = boundary_edges(mesh)
-    edges = {k: edges_on(mesh, v, bnd) for k, v in sets.items()}
+    edges = {k: edges_on(mesh, v, bnd) for k, v in sets.items() if k not in internal}
     named = np.zeros(len(bnd), dtype=bool)
     for k, v in sets.items():
-        named |= np.isin(bnd, v).all(axis=1)
+        if k not in internal:
+            named |= np.isin(bnd, v).all(axis=1)
     if not named.all():
         e = bnd[np.flatnonzero(~named)[0]]
         raise ValueError(f"mesher: the blocks do not conform: boundary edge {e.tolist()} at "
@@ -295,6 +307,22 @@ def boundary_edges(mesh: Mesh) -> np.ndarray:
     if len(widths) > 1:
         raise ValueError("boundary_edges: the mesh mixes linear and quadratic element edges")
     return np.concatenate([o for o in out if o.shape[1] == max(widths)]) if widths else np.zeros((0, 2), np.int64)
+
+
+def cell_edges_on(mesh: Mesh, nodes, cell_mask) -> np.ndarray:
+    """Edges of the cells selected by ``cell_mask`` (a callable of cell
+    centroids (m, 2) returning a mask) whose nodes all belong to ``nodes``:
+    a line inside the body seen from one side (e.g. a section cut), in
+    those cells' counter-clockwise order."""
+    sel_nodes = np.zeros(mesh.nnodes, dtype=bool)
+    sel_nodes[np.asarray(nodes)] = True
+    out = []
+    for b in mesh.blocks:
+        cm = np.asarray(cell_mask(mesh.nodes[b.cells].mean(axis=1)), dtype=bool)
+        for loc in b.element.edges:
+            e = b.cells[:, list(loc)].astype(np.int64)
+            out.append(e[cm & sel_nodes[e].all(axis=1)])
+    return np.concatenate(out)
 
 
 def edges_on(mesh: Mesh, nodes, boundary=None) -> np.ndarray:
