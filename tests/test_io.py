@@ -194,6 +194,31 @@ def test_reduced_rule_is_detected_from_coordinates(tmp_path):
     assert f2.rule_labels["tri6"] == "tri 3-point"
 
 
+def test_reduced_rule_is_detected_in_3d(tmp_path):
+    mesh, field = model_3d(seed=13, points="reduced")
+    field = GaussField(mesh, {k: np.tanh(v) for k, v in field.values.items()}, field.components, points="reduced")
+    write_results(tmp_path, mesh, field)
+    (tmp_path / "about.json").unlink()
+    _, f2 = read_results(tmp_path)
+    assert f2.rule_labels == {"hex20": "gauss 2x2x2", "tet10": "tet 4-point"}
+    # 4-point tetrahedron rule: a = (5 - sqrt 5)/20 = 0.1381966 (Keast 1986)
+    assert np.allclose(np.sort(np.unique(np.round(f2.points["tet10"], 12)))[0], (5 - np.sqrt(5)) / 20)
+    for b in mesh.blocks:
+        assert np.array_equal(f2.values[b.name], field.values[b.name])
+
+
+def test_unused_nodes_survive(tmp_path):
+    base = rectangle_mesh("quad4", 2, 1)
+    nodes = np.r_[base.nodes, [[5.0, 5.0]]]                   # a node in no element
+    mesh = Mesh(nodes, {"quad4": base.block("quad4").cells}, node_ids=np.arange(len(nodes)) + 10)
+    f = GaussField(mesh, {"quad4": np.ones((2, 4, 1))}, ("s",))
+    write_results(tmp_path / "u", mesh, f)
+    m2, _ = read_results(tmp_path / "u")
+    assert np.array_equal(m2.nodes, nodes) and m2.used_nodes().sum() == len(nodes) - 1
+    write_vtu(tmp_path / "u.vtu", mesh, nodal=project_l2(f), field=f)
+    assert np.isnan(meshio.read(tmp_path / "u.vtu").point_data["s"][-1])
+
+
 def test_other_rules_are_detected_from_coordinates(tmp_path):
     mesh = rectangle_mesh("tri6", 2, 2, distort=0.2)
     rule = ELEMENTS["tri6"].rule(6)                  # degree-4 six-point rule
@@ -239,7 +264,6 @@ def test_mismatched_point_sets_are_reported(tmp_path):
     write_results(tmp_path, mesh, f)
     header, rows = _rows(tmp_path / "gauss.csv")
     # element 1 gets its four points at ±0.3 instead of ±1/√3
-    el = mesh.block("quad4")
     x = mesh.geometry("quad4", np.array([[-.3, -.3], [.3, -.3], [-.3, .3], [.3, .3]])).x_cqi[1]
     for p in range(4):
         c = rows[4 + p].split(",")
@@ -355,6 +379,7 @@ ERRORS = [
     ("about.json", lambda l: ['{"point": "full"}'], r"about\.json: unknown key 'point'"),
     ("about.json", lambda l: ['{"points": "full",}'], r"about\.json: not valid JSON \(line 1, column 19"),
     ("about.json", lambda l: ['{"points": "half"}'], r"about\.json: 'points' must be"),
+    ("about.json", lambda l: ['{"points": 5}'], r"about\.json: quad8: a tensor Gauss rule has n\^2 points, not 5"),
     ("about.json", lambda l: ['{"points": {"quad-8": "full"}}'], r"about\.json: 'points': unknown element type 'quad-8'"),
     ("about.json", lambda l: ['{"format": "other/2"}'], r"about\.json: format 'other/2'"),
     ("about.json", lambda l: ['{"units": 5}'], r"about\.json: 'units' must be"),

@@ -27,3 +27,7 @@ __all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "e
 from .io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
+
+from .solve import Material, solve, Traction, Pressure, PointLoad, Fixed, Roller, Displacement
+
+__all__ += ["Material", "solve", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]

@@ -8,8 +8,13 @@ recover RESULTS --method l2|lumped|average|spr [--across-regions] --out nodal.cs
 export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] --out model.vtu
     Write the mesh, the recovered nodal field (point data) and the raw
     integration-point values (cell data) as a VTK XML unstructured grid.
-demo [--out demo-output]
-    Run the end-to-end demonstration (``toolkit.demo``).
+render WORKBOOK [--set name=value ...] [--params file.json] --out DIR
+    Execute a workbook with its parameters and write the executed notebook,
+    an offline HTML report and summary.json (toolkit.workbook).
+new TEMPLATE NAME --out DIR
+    Start a workbook for a new component from one of the templates.
+demo [--out reports] [--recovery-only]
+    The recovery demo, then every workbook rendered with its defaults.
 
 On bad input every command exits with code 2 after one line
 ``error: <reason>`` on stderr, and writes no output file.  Each subcommand is
@@ -163,8 +168,22 @@ def _cmd_export_vtu(args) -> int:
 
 
 def _cmd_demo(args) -> int:
-    from .demo import main as demo_main
-    return demo_main(args)
+    """The recovery demo (nodal CSV and a picture), then every workbook
+    rendered with its defaults into OUT/<workbook>/."""
+    from pathlib import Path
+
+    from .demo import run_demo
+    from .workbook import demo as render_all
+
+    out = Path(args.out)
+    print("== recovery demo ==")
+    run_demo(out / "recovery")
+    if args.recovery_only:
+        return 0
+    print("\n== workbooks ==")
+    render_all(out, progress=False)
+    print(f"\nreports in {out}/: open <workbook>/<workbook>.html in a browser")
+    return 0
 
 
 def _common(p, methods):
@@ -197,8 +216,9 @@ def _add_export_vtu(sub):
 
 
 def _add_demo(sub):
-    p = sub.add_parser("demo", help="run the end-to-end demonstration")
-    p.add_argument("--out", default="demo-output", help="output folder (default demo-output)")
+    p = sub.add_parser("demo", help="render every workbook with its defaults (and the recovery demo)")
+    p.add_argument("--out", default="reports", help="output folder (default reports)")
+    p.add_argument("--recovery-only", action="store_true", help="only the quick recovery demo")
     p.set_defaults(func=_cmd_demo)
 
 
@@ -211,6 +231,8 @@ def build_parser() -> argparse.ArgumentParser:
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
     for add in (_add_recover, _add_export_vtu, _add_demo):
         add(sub)
+    from .workbook import add_commands as _add_workbook_commands
+    _add_workbook_commands(sub)
     return parser
 
 

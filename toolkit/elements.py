@@ -310,13 +310,13 @@ class ElementType:
         """dN[p, a, i] = dN_a / dxi_i at every point ``xi`` (p, dim)."""
         xi = self._check_points(xi)
         _, dP = _monomials(xi, self.exponents)
-        return np.einsum("pji,ja->pai", dP, self._coeffs)
+        return np.matmul(dP.transpose(0, 2, 1), self._coeffs).transpose(0, 2, 1)
 
     def evaluate(self, xi):
         """Both ``N`` (p, k) and ``dN`` (p, k, dim) in one call."""
         xi = self._check_points(xi)
         P, dP = _monomials(xi, self.exponents)
-        return P @ self._coeffs, np.einsum("pji,ja->pai", dP, self._coeffs)
+        return P @ self._coeffs, np.matmul(dP.transpose(0, 2, 1), self._coeffs).transpose(0, 2, 1)
 
     def _check_points(self, xi):
         xi = np.asarray(xi, dtype=float)

@@ -616,11 +616,12 @@ def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
             raise ValueError(f"{gfile}: element {int(b.ids[empty])} ({info['elements'].path}, row {r + 1}) "
                              f"has no rows in {gfile.name}")
         declared, said = _declared_points(about, et)
+        try:
+            declared_rule = et.rule(declared)
+        except ValueError as e:
+            raise ValueError(f"{afile}: {e}") from None
         if X is None:
-            try:
-                rule = et.rule(declared)
-            except ValueError as e:
-                raise ValueError(f"{afile}: {e}") from None
+            rule = declared_rule
             q = rule.npoints
             bad = _first_true(pt > q)
             if bad is not None:
@@ -673,7 +674,7 @@ def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
         values[b.name] = out
         points[b.name] = spec
         if said:
-            want = et.rule(declared)
+            want = declared_rule
             got = spec if isinstance(spec, QuadratureRule) else (et.rule(spec) if isinstance(spec, str) else None)
             if got is None or got.npoints != want.npoints or not np.allclose(got.points, want.points, atol=1e-12):
                 label = got.name if got is not None else f"{q} points that form no stored rule"
@@ -693,20 +694,21 @@ def _chunks(C, q):
     return range(0, C, step), step
 
 
-def _assign(dist2_fn, C, q, tol):
+def _assign(match_fn, C, q, tol):
     """Nearest reference point for every given point, cell by cell.
 
-    ``dist2_fn(s, e) -> (D2 (c, q, q), extra)`` gives squared distances from
-    the given points (axis 1) to the reference points (axis 2) of cells
-    ``s:e``.  Returns ``assign (C, q)``, ``nomatch (C, q)`` (nearest farther
-    than ``tol``) and ``notperm (C,)`` (two points matched the same one).
+    ``match_fn(s, e) -> (nearest (c, q), distance (c, q))`` gives, for the
+    given points of cells ``s:e``, the index of the nearest reference point
+    and the distance to it in natural coordinates.  Returns ``assign (C, q)``,
+    ``nomatch (C, q)`` (nearest farther than ``tol``) and ``notperm (C,)``
+    (two points matched the same one).
     """
     assign = np.empty((C, q), dtype=np.intp)
     nomatch = np.zeros((C, q), dtype=bool)
     starts, step = _chunks(C, q)
     for s in starts:
         e = min(C, s + step)
-        a, dist = dist2_fn(s, e)
+        a, dist = match_fn(s, e)
         assign[s:e] = a
         nomatch[s:e] = dist > tol
     notperm = ~(np.sort(assign, axis=1) == np.arange(q)).all(axis=1)

@@ -139,13 +139,15 @@ class Mesh:
             out = np.flatnonzero((lo < 0) | (hi >= n))
             if out.size:
                 c = int(out[0])
-                raise ValueError(f"block {et.name}, cell {c}: node index out of range 0..{n - 1} "
+                eid = f" (element {int(cell_ids[name][c])})" if name in cell_ids else ""
+                raise ValueError(f"block {et.name}, cell {c}{eid}: node index out of range 0..{n - 1} "
                                  f"({conn[c].tolist()}); {out.size} such cells")
             srt = np.sort(conn, axis=1)
             rep = np.flatnonzero((srt[:, 1:] == srt[:, :-1]).any(axis=1))
             if rep.size:
                 c = int(rep[0])
-                raise ValueError(f"block {et.name}, cell {c}: repeated node index ({conn[c].tolist()}); "
+                eid = f" (element {int(cell_ids[name][c])})" if name in cell_ids else ""
+                raise ValueError(f"block {et.name}, cell {c}{eid}: repeated node index ({conn[c].tolist()}); "
                                  f"{rep.size} such cells")
             reg = np.asarray(regions.get(name, np.zeros(m, dtype=np.int64)))
             if reg.shape != (m,) or (reg.size and not np.issubdtype(reg.dtype, np.integer)):
@@ -287,8 +289,9 @@ def inverse_map(element, xe, x, tol=1e-12, maxiter=30):
         if idx.size == 0:
             break
         N, dN = et.evaluate(xi[idx])                          # (p, k), (p, k, j)
-        xcur = np.einsum("pk,pki->pi", N, xe[idx])
-        J = np.einsum("pki,pkj->pij", xe[idx], dN)
+        xs = xe[idx]
+        xcur = np.matmul(N[:, None, :], xs)[:, 0, :]          # x_pi = N_pk x_pki
+        J = np.matmul(xs.transpose(0, 2, 1), dN)              # J_pij = x_pki dN_pkj
         r = xcur - x[idx]
         with np.errstate(all="ignore"):
             step = np.linalg.solve(J, r[..., None])[..., 0]
@@ -301,6 +304,6 @@ def inverse_map(element, xe, x, tol=1e-12, maxiter=30):
         small = (np.linalg.norm(r, axis=1) <= tol * scale) | (np.abs(step).max(axis=1) <= 1e-14)
         active[idx[small]] = False
     N, _ = et.evaluate(xi)
-    err = np.linalg.norm(np.einsum("pk,pki->pi", N, xe) - x, axis=1)
+    err = np.linalg.norm(np.matmul(N[:, None, :], xe)[:, 0, :] - x, axis=1)
     return xi, err <= 1e-8 * size + 1e-12 * np.abs(x).max(axis=1)
 

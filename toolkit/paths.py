@@ -36,7 +36,7 @@ from .mesh import Mesh, inverse_map
 from .recovery import DofMap
 
 __all__ = [
-    "Location", "PointLocator",
+    "Location", "PointLocator", "path_from_spec",
     "Path", "Polyline", "Arc", "EdgePath", "PathSamples", "line", "polyline", "arc", "edge_path",
     "PathResult", "sample", "raw_along", "STRESS_QUANTITIES",
 ]
@@ -1076,3 +1076,30 @@ def raw_along(field: GaussField, path: Path, n=None, distances=None, region=None
     breaks = np.flatnonzero(key[1:] != key[:-1]) + 1
     pieces = [p for p in np.split(np.arange(len(d)), breaks) if key[p[0]] >= 0]
     return PathResult(path.label, samples, vals, field.components, loc, "raw", pieces=pieces, region=region)
+
+
+def path_from_spec(spec: dict) -> Path:
+    """A path from a plain dictionary, as workbook parameters give them:
+
+    * ``{"start": [x, y], "end": [x, y]}`` — a straight line;
+    * ``{"points": [[x, y], ...]}`` — a polyline;
+    * ``{"centre": [x, y], "radius": r, "from": a0, "to": a1}`` — an arc
+      (degrees, anticlockwise from +x).
+
+    An optional ``"name"`` is kept as the path's label.  Unknown keys raise.
+    """
+    if not isinstance(spec, dict):
+        raise ValueError(f"a path is given as a dict, got {type(spec).__name__}")
+    name = str(spec.get("name", "path"))
+    keys = set(spec) - {"name"}
+    if keys == {"start", "end"}:
+        p = line(spec["start"], spec["end"])
+    elif keys == {"points"}:
+        p = polyline(spec["points"])
+    elif keys == {"centre", "radius", "from", "to"}:
+        p = arc(spec["centre"], spec["radius"], spec["from"], spec["to"])
+    else:
+        raise ValueError(f"path {name!r}: give start+end, points, or centre+radius+from+to; got keys "
+                         f"{sorted(keys)}")
+    p.label = name
+    return p

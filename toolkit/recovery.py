@@ -444,6 +444,11 @@ class L2Projector:
         """Project ``field`` (all components at once) to a :class:`NodalField`."""
         t0 = time.perf_counter()
         b = self.rhs(field)
+        if not np.isfinite(b).all():
+            a = int(np.flatnonzero(~np.isfinite(b).all(axis=0))[0])
+            raise ValueError(f"the right-hand side of component {field.components[a]} overflows: values of "
+                             f"about {np.abs(next(iter(field.values.values()))).max():.3g} times cell sizes "
+                             "exceed the floating-point range; rescale the values (units)")
         x0 = b / self.lumped_diagonal[:, None]
         info = {"method": "lumped" if self.lumped else "l2", "ndof": self.dofs.ndof,
                 "renumbered": self.renumbered, "across_regions": self.dofs.across_regions}
