@@ -1,5 +1,7 @@
 """Tests of the parametric meshers (toolkit.models) solved with toolkit.solve."""
 import numpy as np
+
+from toolkit.references import fillet_kt, heywood_kt_net
 import pytest
 
 from toolkit.elements import ELEMENTS
@@ -50,7 +52,7 @@ def test_heywood_finite_width(d_over_w):
     m = plate_with_hole(width=W, length=max(4 * W, 20 * d), hole_diameter=d, element_size=d / 20)
     _, nf = solved(m)
     kt_net = nf.component("sxx")[m.points["peak"]] / m.nominal["net"]
-    assert kt_net == pytest.approx(2 + (1 - d_over_w) ** 3, rel=0.03)
+    assert kt_net == pytest.approx(heywood_kt_net(d_over_w), rel=0.03)
     assert m.nominal["net"] == pytest.approx(m.nominal["gross"] * W / (W - d), rel=1e-12)
 
 
@@ -86,20 +88,7 @@ def test_spherical_cavity_axisymmetric():
 # agreeing part of the range; the full table is in the issue report.
 # ---------------------------------------------------------------------------
 def peterson_fit(shape, D, d, r):
-    h = (D - d) / 2
-    q, x = h / r, 2 * h / D
-    sq = np.sqrt(q)
-    if shape == "flat":
-        C = ([1.006 + 1.008 * sq - 0.044 * q, -0.115 - 0.584 * sq + 0.315 * q,
-              0.245 - 1.006 * sq - 0.257 * q, -0.135 + 0.582 * sq - 0.017 * q] if q <= 2 else
-             [1.020 + 1.009 * sq - 0.048 * q, -0.065 - 0.165 * sq - 0.007 * q,
-              -3.459 + 1.266 * sq - 0.016 * q, 3.505 - 2.109 * sq + 0.069 * q])
-    else:
-        C = ([0.926 + 1.157 * sq - 0.099 * q, 0.012 - 3.036 * sq + 0.961 * q,
-              -0.302 + 3.977 * sq - 1.744 * q, 0.365 - 2.098 * sq + 0.878 * q] if q <= 2 else
-             [1.200 + 0.860 * sq - 0.022 * q, -1.805 - 0.346 * sq - 0.038 * q,
-              2.198 - 0.486 * sq + 0.165 * q, -0.593 - 0.028 * sq - 0.106 * q])
-    return C[0] + C[1] * x + C[2] * x ** 2 + C[3] * x ** 3
+    return fillet_kt(shape, "tension", D, d, r)
 
 
 @pytest.mark.parametrize("shape,D_d,r_d", [

@@ -28,6 +28,6 @@ from .io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
 
-from .solve import Material, solve, Traction, Pressure, PointLoad, Fixed, Roller, Displacement
+from .solve import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402 (module toolkit.solve stays reachable)
 
-__all__ += ["Material", "solve", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]
+__all__ += ["Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]

@@ -1,0 +1,93 @@
+"""Closed forms and handbook fits the workbooks compare against.
+
+Each function names its source.  Values flagged "from memory" were written
+from the engineer's recollection of the published fit and should be checked
+against the printed source before a project relies on them; the tests
+compare the finite-element results of this toolkit with them.
+"""
+from __future__ import annotations
+
+import math
+
+import numpy as np
+
+__all__ = ["kirsch_kt", "kirsch_ligament", "heywood_kt_net", "fillet_kt", "peterson_q", "fatigue_notch_factor"]
+
+
+def kirsch_kt() -> float:
+    """Peak hoop stress / remote stress at a circular hole in an infinite
+    plate under uniaxial tension: 3 (Kirsch 1898)."""
+    return 3.0
+
+
+def kirsch_ligament(y, radius):
+    """σxx/σ along the ligament (x = 0, |y| >= a) of a circular hole in an
+    infinite plate under remote σ along x (Kirsch 1898; e.g. Timoshenko &
+    Goodier, Theory of Elasticity, §35): 1 + a²/(2y²) + 3a⁴/(2y⁴)."""
+    q = (radius / np.asarray(y, dtype=float)) ** 2
+    return 1 + 0.5 * q + 1.5 * q * q
+
+
+def heywood_kt_net(d_over_w: float) -> float:
+    """Net-section Kt of a central circular hole in a finite-width plate in
+    tension, Heywood (1952): Kt,net = 2 + (1 − d/W)³ (quoted in Pilkey &
+    Pilkey, Peterson's Stress Concentration Factors, 3rd ed., §4.3; from
+    memory).  Valid for 0 <= d/W < 1."""
+    if not 0 <= d_over_w < 1:
+        raise ValueError(f"d/W must lie in [0, 1), got {d_over_w}")
+    return 2.0 + (1.0 - d_over_w) ** 3
+
+
+# Kt = C1 + C2 (2h/D) + C3 (2h/D)^2 + C4 (2h/D)^3 with h = (D - d)/2 and
+# Ci = a + b sqrt(h/r) + c h/r, two ranges of h/r (0.1..2, 2..20).
+# Pilkey & Pilkey, Peterson's Stress Concentration Factors, 3rd ed., charts
+# 3.1 (flat bar, tension), 3.2 (flat bar, bending), 3.4 (shaft, tension);
+# the same fits are tabulated in Roark's Formulas for Stress and Strain,
+# Table 17.1.  All coefficients FROM MEMORY.
+_FILLET_FITS = {
+    ("flat", "tension"): (
+        [(1.006, 1.008, -0.044), (-0.115, -0.584, 0.315), (0.245, -1.006, -0.257), (-0.135, 0.582, -0.017)],
+        [(1.020, 1.009, -0.048), (-0.065, -0.165, -0.007), (-3.459, 1.266, -0.016), (3.505, -2.109, 0.069)]),
+    ("flat", "bending"): (
+        [(1.006, 0.967, 0.013), (-0.270, -2.372, 0.708), (0.662, 1.157, -0.908), (-0.405, 0.249, 0.188)],
+        [(1.058, 1.002, -0.038), (-3.652, 1.639, -0.436), (6.170, -5.687, 1.175), (-2.558, 3.046, -0.701)]),
+    ("shaft", "tension"): (
+        [(0.926, 1.157, -0.099), (0.012, -3.036, 0.961), (-0.302, 3.977, -1.744), (0.365, -2.098, 0.878)],
+        [(1.200, 0.860, -0.022), (-1.805, -0.346, -0.038), (2.198, -0.486, 0.165), (-0.593, -0.028, -0.106)]),
+}
+
+
+def fillet_kt(shape: str, load: str, large_width: float, small_width: float, fillet_radius: float) -> float:
+    """Kt of a shoulder fillet from the handbook fit (see ``_FILLET_FITS``),
+    referred to the nominal stress in the small section.  Stated range:
+    0.1 <= h/r <= 20 (h = (D - d)/2); outside it a ValueError."""
+    key = (shape, load)
+    if key not in _FILLET_FITS:
+        raise ValueError(f"no handbook fit for a {shape} part in {load}; have {sorted(_FILLET_FITS)}")
+    D, d, r = float(large_width), float(small_width), float(fillet_radius)
+    if not (D > d > 0 and r > 0):
+        raise ValueError(f"need D > d > 0 and r > 0, got D={D}, d={d}, r={r}")
+    h = (D - d) / 2
+    q = h / r
+    if not 0.1 <= q <= 20:
+        raise ValueError(f"h/r = {q:.3g} lies outside the fit's range 0.1..20")
+    rows = _FILLET_FITS[key][0 if q <= 2 else 1]
+    x = 2 * h / D
+    C = [a + b * math.sqrt(q) + c * q for a, b, c in rows]
+    return C[0] + C[1] * x + C[2] * x ** 2 + C[3] * x ** 3
+
+
+def peterson_q(fillet_radius: float, tensile_strength: float) -> float:
+    """Notch sensitivity q = 1 / (1 + a/r) (Peterson 1959), with the
+    characteristic length for steels a = 0.0254 (2070/Su)^1.8 mm, Su in MPa
+    (the fit quoted in Shigley's Mechanical Engineering Design; from
+    memory).  Intended for steels with Su roughly 340..1700 MPa."""
+    if fillet_radius <= 0 or tensile_strength <= 0:
+        raise ValueError("fillet radius and tensile strength must be positive")
+    a = 0.0254 * (2070.0 / tensile_strength) ** 1.8
+    return 1.0 / (1.0 + a / fillet_radius)
+
+
+def fatigue_notch_factor(kt: float, q: float) -> float:
+    """Kf = 1 + q (Kt − 1) (Peterson; common practice)."""
+    return 1.0 + q * (kt - 1.0)
