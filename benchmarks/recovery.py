@@ -345,12 +345,14 @@ def worker(spec):
     peak = meter.stop()
 
     out = {"method": method, "etype": etype, "elements": mesh.ncells, "nodes": mesh.nnodes,
+           "code": recovery_fingerprint(),
            "seconds": min(times), "times": times, "peak_mib": peak, "note": note}
     if isinstance(result, toolkit.NodalField):
         info = result.info
         if "iterations" in info:
             out["iterations"] = info["iterations"]
         out["renumbered"] = info.get("renumbered")
+        out["threads"] = info.get("threads")
         if "setup_time" in info:
             out["setup_seconds"] = info["setup_time"]
             out["project_seconds"] = info["time"]
@@ -381,12 +383,24 @@ def run_worker(spec, timeout, mem_limit_gib):
         if line.startswith("RESULT "):
             return json.loads(line[7:])
     tail = (proc.stderr.strip().splitlines() or ["(no output)"])[-1]
-    return {"error": f"exit {proc.returncode}: {tail[:120]}"}
+    err = f"exit {proc.returncode}: {tail[:100]}"
+    if mem_limit_gib and ("MemoryError" in proc.stderr or "expand" in proc.stderr):
+        err += f" (out of memory under the {mem_limit_gib:.1f} GiB limit)"
+    return {"error": err}
 
 
 # ---------------------------------------------------------------------------
 # Report
 # ---------------------------------------------------------------------------
+def recovery_fingerprint() -> str:
+    """Short sha256 of toolkit/recovery.py as imported (the code under test
+    can change between runs; every measurement records which one it ran)."""
+    import hashlib
+    import toolkit.recovery
+    with open(toolkit.recovery.__file__, "rb") as f:
+        return hashlib.sha256(f.read()).hexdigest()[:12]
+
+
 def machine_info():
     import scipy
     import toolkit
@@ -411,7 +425,8 @@ def machine_info():
     except ImportError:
         skv = "not installed"
     lines.append(f"versions: python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}, "
-                 f"scikit-fem {skv}, stresspath {toolkit.__version__}")
+                 f"scikit-fem {skv}, stresspath {toolkit.__version__} (toolkit/recovery.py sha256 "
+                 f"{recovery_fingerprint()})")
     lines.append(f"load    : {' '.join(f'{v:.2f}' for v in os.getloadavg())} (1, 5, 15 min averages at the start)")
     return lines
 
@@ -525,6 +540,10 @@ def main(argv=None):
         os.rmdir(tmp)
 
     print_tables(rows, memory, sizes)
+    codes = sorted({r["code"] for res in rows for r in res.values() if "code" in r})
+    if len(codes) > 1:
+        print(f"\nWARNING: toolkit/recovery.py changed during the run (sha256 {', '.join(codes)}); "
+              "rows are not all from the same code")
     print(f"\ntotal wall time {time.perf_counter() - t_start:.0f} s; load average at the end "
           f"{' '.join(f'{v:.2f}' for v in os.getloadavg())} (other processes on this machine skew the times)")
     return 0
@@ -557,6 +576,7 @@ def print_tables(rows, memory, sizes):
             if "setup_seconds" in r and mth != "reused":
                 note = (f"setup {r['setup_seconds']:.3f} s + project {r['project_seconds']:.3f} s"
                         + ("" if r.get("renumbered") is None else f", renumbered={r['renumbered']}")
+                        + ("" if not r.get("threads") else f", {r['threads']} CG thread(s)")
                         + (f", {note}" if note else ""))
             print(f"{r['etype']:<6} {r['elements']:>10,d}  {lab:<40} {s:>9.3f} {peak:>16} "
                   f"{fmt_iters(r.get('iterations')):>9} {ratio:>8} {vs_sk:>9} {diff:>10}  {note}")
@@ -627,18 +647,26 @@ def profile(n, args):
 
     for line in machine_info():
         print(line)
+    import inspect
+
     side = side_for(n)
-    for shuffle in (False, True):
+    # with worker threads, cProfile books their work as lock waits; a
+    # single-thread run shows where the time goes
+    cases = [(False, {}), (True, {})]
+    if "threads" in inspect.signature(toolkit.project_l2).parameters:
+        cases.insert(1, (False, {"threads": 1}))
+    for shuffle, kw in cases:
         mesh, _ = build_mesh("quad4", side, args.distort, args.seed, shuffle=shuffle)
         field = make_field(mesh, 0, args.seed)
-        toolkit.project_l2(field)           # warm-up
+        toolkit.project_l2(field, **kw)     # warm-up
         pr = cProfile.Profile()
         t0 = time.perf_counter()
         pr.enable()
-        nodal = toolkit.project_l2(field)
+        nodal = toolkit.project_l2(field, **kw)
         pr.disable()
         total = time.perf_counter() - t0
-        print(f"\nproject_l2 on {mesh} {'(shuffled numbering)' if shuffle else ''}: {total:.3f} s under cProfile, "
+        print(f"\nproject_l2({', '.join(f'{k}={v}' for k, v in kw.items())}) on {mesh} "
+              f"{'(shuffled numbering)' if shuffle else ''}: {total:.3f} s under cProfile, "
               f"setup {nodal.info['setup_time']:.3f} s, project {nodal.info['time']:.3f} s, "
               f"CG iterations {fmt_iters(nodal.info.get('iterations'))}, renumbered={nodal.info.get('renumbered')}")
         pstats.Stats(pr, stream=sys.stdout).sort_stats("tottime").print_stats(18)

@@ -153,3 +153,15 @@ def test_bad_input_raises():
         S.rotate([1, 2, 3], PLANE, np.array([[1, 0, 0], [0, 0, 1], [0, -1, 0.0]]))
     with pytest.raises(ValueError, match="repeated"):
         S.von_mises([1, 2, 3], ("sxx", "sxx", "sxy"))
+
+
+def test_axisymmetric_names_map_to_the_plane_set():
+    """(srr, szz, srz, shoop) is the plane set with r as x, z as y and the hoop
+    stress out of plane (common practice)."""
+    v = np.array([30.0, 100.0, 20.0, 45.0])
+    p = np.array([30.0, 100.0, 20.0, 45.0])            # sxx, syy, sxy, szz
+    assert np.isclose(S.von_mises(v, S.AXISYMMETRIC), S.von_mises(p, PLANE_ZZ))
+    assert np.allclose(S.principal(v, S.AXISYMMETRIC).values, S.principal(p, PLANE_ZZ).values)
+    R = np.array([[0.0, -1.0, 0.0], [1.0, 0.0, 0.0], [0.0, 0.0, 1.0]])
+    r = S.rotate(v, S.AXISYMMETRIC, R)                    # 90 degrees: srr and szz swap, hoop stays
+    assert np.allclose(r, [100.0, 30.0, -20.0, 45.0])

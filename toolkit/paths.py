@@ -763,11 +763,7 @@ def edge_path(mesh: Mesh, edges, label="edges") -> EdgePath:
 # Results
 # ---------------------------------------------------------------------------
 def _stress_kind(components):
-    s = set(components)
-    for kind, canon in _stress.COMPONENT_SETS.items():
-        if s == set(canon):
-            return kind
-    return None
+    return _stress.stress_kind(components)
 
 
 def _derived(values, components, tangents, normals, dim):

@@ -14,8 +14,8 @@ Coordinates and components
   stress output ``(sxx, syy, sxy, szz)`` (``szz = 0`` in plane stress,
   ``ν (sxx + syy)`` in plane strain); strain output ``(exx, eyy, gxy, ezz)``.
 * axisymmetric: coordinate 0 is the radius ``r >= 0``, coordinate 1 the
-  axial position ``z``; strain ``(err, ezz, grz, ett)`` with the hoop strain
-  ``ett = u_r / r``; stress output ``(srr, szz, srz, stt)`` (``stt`` hoop).
+  axial position ``z``; strain ``(err, ezz, grz, ehoop)`` with the hoop strain
+  ``ehoop = u_r / r``; stress output ``(srr, szz, srz, shoop)`` (``shoop`` hoop).
   Every integral is over the full ring (factor ``2 π r``): point loads are
   total ring forces, reactions are totals over the circumference.
 * plane problems carry a ``thickness`` (default 1): tractions are forces per
@@ -54,13 +54,13 @@ __all__ = [
 ANALYSES = ("plane_stress", "plane_strain", "axisymmetric")
 STRESS_COMPONENTS = {"plane_stress": ("sxx", "syy", "sxy", "szz"),
                      "plane_strain": ("sxx", "syy", "sxy", "szz"),
-                     "axisymmetric": ("srr", "szz", "srz", "stt")}
+                     "axisymmetric": ("srr", "szz", "srz", "shoop")}
 STRAIN_COMPONENTS = {"plane_stress": ("exx", "eyy", "gxy", "ezz"),
                      "plane_strain": ("exx", "eyy", "gxy", "ezz"),
-                     "axisymmetric": ("err", "ezz", "grz", "ett")}
+                     "axisymmetric": ("err", "ezz", "grz", "ehoop")}
 TENSOR_INDEX = {"plane_stress": {"sxx": (0, 0), "syy": (1, 1), "sxy": (0, 1), "szz": (2, 2)},
                 "plane_strain": {"sxx": (0, 0), "syy": (1, 1), "sxy": (0, 1), "szz": (2, 2)},
-                "axisymmetric": {"srr": (0, 0), "szz": (1, 1), "srz": (0, 1), "stt": (2, 2)}}
+                "axisymmetric": {"srr": (0, 0), "szz": (1, 1), "srz": (0, 1), "shoop": (2, 2)}}
 
 
 # ---------------------------------------------------------------------------

@@ -9,6 +9,8 @@ last axis.  Three component sets are understood, in any order:
   out-of-plane (or hoop) normal stress ``szz`` is a principal stress,
   ``syz = sxz = 0``.  (Axisymmetric: x radial, y axial, z hoop.)
 * ``("sxx", "syy", "szz", "sxy", "syz", "sxz")`` — general 3D.
+* ``("srr", "szz", "srz", "shoop")`` — axisymmetric in (r, z): handled as the
+  plane set with r as x, z as y and the hoop stress as the out-of-plane one.
 
 Shear components are tensor (not engineering) shears.  Formulas are the
 textbook ones (e.g. Timoshenko & Goodier, *Theory of Elasticity*, ch. 1 and 9;
@@ -21,7 +23,7 @@ from typing import NamedTuple
 import numpy as np
 
 __all__ = [
-    "PLANE", "PLANE_ZZ", "SOLID", "COMPONENT_SETS", "component_set", "to_tensor", "from_tensor",
+    "PLANE", "PLANE_ZZ", "SOLID", "AXISYMMETRIC", "COMPONENT_SETS", "stress_kind", "component_set", "to_tensor", "from_tensor",
     "von_mises", "principal", "Principal", "tresca", "hydrostatic", "max_abs_principal",
     "rotate_2d", "FrameStress", "rotate", "unit_tangent",
 ]
@@ -29,10 +31,26 @@ __all__ = [
 PLANE = ("sxx", "syy", "sxy")
 PLANE_ZZ = ("sxx", "syy", "sxy", "szz")
 SOLID = ("sxx", "syy", "szz", "sxy", "syz", "sxz")
+AXISYMMETRIC = ("srr", "szz", "srz", "shoop")
 COMPONENT_SETS = {"plane": PLANE, "plane+szz": PLANE_ZZ, "3d": SOLID}
+# other names for a canonical set: name tuple -> (kind, canonical name of each)
+ALIASES = {AXISYMMETRIC: ("plane+szz", PLANE_ZZ)}
 
 # (row, column) of each name in the symmetric 3x3 tensor
 _IJ = {"sxx": (0, 0), "syy": (1, 1), "szz": (2, 2), "sxy": (0, 1), "syz": (1, 2), "sxz": (0, 2)}
+_IJ_AXI = {"srr": (0, 0), "szz": (1, 1), "srz": (0, 1), "shoop": (2, 2)}
+
+
+def stress_kind(components):
+    """``"plane"``, ``"plane+szz"`` or ``"3d"`` for a known component set, else None."""
+    try:
+        return component_set(components)[0]
+    except ValueError:
+        return None
+
+
+def _ij(components):
+    return _IJ_AXI if set(components) == set(AXISYMMETRIC) else _IJ
 
 
 def component_set(components) -> tuple[str, tuple[int, ...]]:
@@ -48,9 +66,12 @@ def component_set(components) -> tuple[str, tuple[int, ...]]:
     for kind, canon in COMPONENT_SETS.items():
         if set(comps) == set(canon):
             return kind, tuple(comps.index(c) for c in canon)
+    for names, (kind, _) in ALIASES.items():
+        if set(comps) == set(names):
+            return kind, tuple(comps.index(c) for c in names)
     raise ValueError(
         f"unknown stress component set {comps}: expected (in any order) {PLANE} for plane stress, "
-        f"{PLANE_ZZ} for plane strain / axisymmetric, or {SOLID} for 3D")
+        f"{PLANE_ZZ} for plane strain, {AXISYMMETRIC} for axisymmetric, or {SOLID} for 3D")
 
 
 def _values(values, components, name):
@@ -81,7 +102,8 @@ def from_tensor(T, components=SOLID) -> np.ndarray:
     T = np.asarray(T, dtype=float)
     if T.shape[-2:] != (3, 3):
         raise ValueError(f"from_tensor: tensors must be shaped (..., 3, 3), got {T.shape}")
-    return np.stack([T[(...,) + _IJ[c]] for c in components], axis=-1)
+    ij = _ij(components)
+    return np.stack([T[(...,) + ij[c]] for c in components], axis=-1)
 
 
 def von_mises(values, components) -> np.ndarray:

@@ -1,0 +1,220 @@
+# %% [markdown]
+# # Shoulder fillet: stepped flat bar or stepped shaft
+#
+# | | |
+# |---|---|
+# | Project | Demonstration project (invented) |
+# | Component | stepped bar |
+# | Revision | A |
+# | Prepared by | (name) |
+# | Checked by | (name) |
+# | Date | (date) |
+#
+# **Units: mm, N and MPa throughout.**
+#
+# A bar steps from a large width (or diameter) D down to a small width d through a fillet of radius r.
+# A flat bar is modelled in plane stress (tension or in-plane bending), a round shaft axisymmetric
+# (tension). The workbook solves the model with the toolkit's solver, smooths the stresses by global L2
+# projection, reads the stress along the fillet surface to find the peak and its location, compares the
+# stress concentration factor with the handbook fit, derives a fatigue notch factor from Peterson's
+# notch sensitivity, and checks static strength.
+
+# %%
+%matplotlib inline
+
+# %%
+import numpy as np
+import matplotlib.pyplot as plt
+
+import toolkit as tk
+from toolkit import plots, report
+from toolkit.checks import static_check
+from toolkit.models import shoulder_fillet
+from toolkit.references import fatigue_notch_factor, fillet_kt, peterson_q
+from toolkit.solve import solve
+from toolkit.stress import von_mises
+from toolkit.study import check_table, convergence_lines, convergence_study, recover_all
+from toolkit.widgets import path_panel, plot_path_comparison
+from toolkit.workbook import Summary
+
+# %% tags=["parameters"]
+shape = "flat"               # one of: "flat", "shaft"
+large_width = 60.0           # mm, D (width of the flat bar, or shaft diameter); range: 0 < x <= 5000
+small_width = 40.0           # mm, d; range: 0 < x <= 5000
+fillet_radius = 4.0          # mm, r; range: 0 < x <= 1000
+load = "tension"             # one of: "tension", "bending"
+nominal_stress = 100.0       # MPa, in the small section (bending: at its outer fibre); range: 0 < x <= 2000
+yield_strength = 355.0       # MPa; range: 0 < x <= 2000
+tensile_strength = 510.0     # MPa, for the notch sensitivity; range: 0 < x <= 3000
+safety_factor = 1.5          # on yield; range: 1 <= x <= 10
+element_size = 0.25          # mm, element size along the fillet; range: 0 < x <= 100
+
+# %% [markdown]
+# ## Inputs
+
+# %%
+params = dict(shape=shape, large_width=large_width, small_width=small_width, fillet_radius=fillet_radius,
+              load=load, nominal_stress=nominal_stress, yield_strength=yield_strength,
+              tensile_strength=tensile_strength, safety_factor=safety_factor, element_size=element_size)
+report.inputs_table(params, dict(large_width="mm", small_width="mm", fillet_radius="mm", nominal_stress="MPa",
+                                 yield_strength="MPa", tensile_strength="MPa", element_size="mm"))
+
+# %% [markdown]
+# ## The model
+# Flat bar in tension: half model about the axis, plane stress. Flat bar in bending: full depth. Shaft:
+# axisymmetric (r, z), tension. Quadratic elements graded toward the fillet.
+
+# %%
+if shape == "shaft" and load == "bending":
+    raise ValueError("load: bending of a round shaft is not axisymmetric; use shape='flat' or load='tension'")
+
+def make(h):
+    return shoulder_fillet(shape, large_width, small_width, fillet_radius, element_size=h, load=load,
+                           nominal_stress=nominal_stress)
+
+model = make(element_size)
+sol = solve(model)
+print(model)
+print(sol)
+fig, ax = plt.subplots(figsize=(10, 4))
+model.plot(ax)
+plt.show()
+
+# %% [markdown]
+# ## Raw and smoothed stresses
+
+# %%
+field = sol.stress
+axial = "sxx" if shape == "flat" else "szz"
+recovered = recover_all(field)
+nodal = recovered["L2 projection"]
+fig = plots.raw_vs_smoothed(field, nodal, axial)
+plt.show()
+
+# %% [markdown]
+# ## Path along the fillet surface
+# The fillet edge is read with each element's own (curved) geometry; at the free surface the stress
+# along the surface, `stt`, is the largest principal stress. In bending the fillet on the tension side
+# is read.
+
+# %%
+def fillet_path(m):
+    edges = m.edges["fillet"]
+    if m.geometry.get("load") == "bending":
+        y = m.mesh.nodes[edges[:, :2], 1].mean(axis=1)
+        edges = edges[y > 0]
+    p = tk.edge_path(m.mesh, edges)
+    p.label = "fillet surface"
+    return p
+
+fillet = fillet_path(model)
+along = tk.sample(nodal, fillet, n=201)
+i_peak = int(np.argmax(along["stt"]))
+peak = float(along["stt"][i_peak])
+where = along.points[i_peak]
+kt = peak / model.nominal["nominal"]
+fig, ax = plt.subplots(figsize=(8, 4))
+plot_path_comparison(fillet, recovered, field, "stt", ax, marks=[along.distances[i_peak]],
+                     title="stress along the fillet surface")
+plt.show()
+print(f"peak stress along the fillet: {peak:.4g} MPa at {along.distances[i_peak]:.3g} mm along the fillet, "
+      f"point ({where[0]:.4g}, {where[1]:.4g}) mm")
+
+# %%
+# NBVAL_IGNORE_OUTPUT
+path_panel({"fillet surface": fillet}, recovered, field, quantities=("stt", "von_mises", "s1"))
+
+# %% [markdown]
+# ## Stress concentration and fatigue notch factor
+# Kt = peak / nominal stress in the small section, by each recovery method, against the handbook fit
+# (Pilkey & Pilkey, Peterson's Stress Concentration Factors, 3rd ed., charts 3.1, 3.2, 3.4; the fit is
+# stated for 0.1 ≤ h/r ≤ 20 with h = (D − d)/2). Fatigue notch factor Kf = 1 + q (Kt − 1) with Peterson's
+# q = 1 / (1 + a/r), a = 0.0254 (2070/Su)^1.8 mm for steels.
+
+# %%
+rows = []
+for name, nf in recovered.items():
+    v = tk.sample(nf, fillet, n=201)["stt"].max()
+    rows.append([name, v, v / model.nominal["nominal"]])
+try:
+    kt_fit = fillet_kt(shape, load, large_width, small_width, fillet_radius)
+    fit_note = f"handbook fit: Kt = {kt_fit:.4f}; this model {kt:.4f} ({kt / kt_fit - 1:+.2%})"
+except ValueError as e:
+    kt_fit = float("nan")
+    fit_note = f"handbook fit not applicable: {e}"
+rows.append(["handbook fit", kt_fit * model.nominal["nominal"], kt_fit])
+q = peterson_q(fillet_radius, tensile_strength)
+kf = fatigue_notch_factor(kt, q)
+print(fit_note)
+print(f"notch sensitivity q = {q:.3f} (r = {fillet_radius:g} mm, Su = {tensile_strength:g} MPa); Kf = {kf:.3f}")
+report.Table(rows, ["source", "peak stress (MPa)", "Kt"], title="Stress concentration factor")
+
+# %% [markdown]
+# ## Mesh adequacy
+# Zienkiewicz–Zhu indicator and a convergence study of the peak fillet stress with the fillet element
+# size doubled and doubled again (Richardson extrapolation, Roache's GCI after Celik et al. 2008).
+
+# %%
+ind = tk.error_indicator(field, recovered["patch recovery (SPR)"])
+fig, ax = plt.subplots(figsize=(10, 4))
+ind.plot(ax)
+plt.show()
+print(f"global relative error eta = {ind.eta:.2%} (Zienkiewicz-Zhu, L2 norm)")
+
+# %%
+# NBVAL_IGNORE_OUTPUT
+def peak_at(h):
+    m = make(h)
+    return tk.sample(tk.project_l2(solve(m).stress), fillet_path(m), n=201)["stt"].max()
+
+sizes = [element_size, 2 * element_size, 4 * element_size]
+values, conv, conv_table = convergence_study(peak_at, sizes, quantity="peak fillet stress")
+
+# %%
+display(conv_table)
+print("\n".join(convergence_lines(conv)))
+
+# %% [markdown]
+# ## Checks
+# Static strength: the largest nodal von Mises stress of the smoothed field against yield over the
+# safety factor (the hoop stress of the shaft is included).
+
+# %%
+peak_vm = float(np.max(von_mises(nodal.values, nodal.components)))
+static = static_check(peak_vm, yield_strength, safety_factor)
+check_table([static])
+
+# %%
+static
+
+# %% [markdown]
+# ## Cautions and method references
+# - This calculation supports, and does not replace, the judgment of a qualified engineer and the
+#   governing local codes. It is linear elastic; local yielding at the fillet, surface finish, size and
+#   environment effects on fatigue are not included, and Kf from Peterson's q is an estimate for steels.
+# - Handbook fits: W. D. Pilkey and D. F. Pilkey, Peterson's Stress Concentration Factors, 3rd ed.,
+#   Wiley 2008 (coefficients as implemented in toolkit/references.py, flagged there as from memory);
+#   this model departs from them in parts of their range (see the test notes in tests/test_models.py).
+# - Notch sensitivity: R. E. Peterson (1959); the fit for a as quoted in Shigley's Mechanical Engineering
+#   Design.
+# - Global L2 projection: E. Hinton and J. S. Campbell, Int. J. Numer. Meth. Eng. 8 (1974) 461–480.
+# - Patch recovery and error indicator: O. C. Zienkiewicz and J. Z. Zhu, Int. J. Numer. Meth. Eng. 33
+#   (1992).
+# - Grid Convergence Index: P. J. Roache (1994); procedure of I. B. Celik et al., J. Fluids Eng. 130 (2008).
+
+# %%
+summary = Summary(parameters=params)
+summary.value("kt", kt, "1", note="peak fillet stress / nominal, L2 projection")
+summary.value("kt_handbook", kt_fit, "1", note="Pilkey & Pilkey fit (NaN outside its range)")
+summary.value("peak_stress", peak, "MPa", note="largest stress along the fillet surface")
+summary.value("peak_location_x", float(where[0]), "mm")
+summary.value("peak_location_y", float(where[1]), "mm")
+summary.value("kf", kf, "1", note="fatigue notch factor, Peterson q")
+summary.value("peak_von_mises", peak_vm, "MPa")
+summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh")
+summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
+summary.check(static)
+summary.save()
+
+# %%
+print(report.footer(params))
