@@ -46,8 +46,8 @@ def plot_path_comparison(path, nodal_fields: dict, field=None, quantity="snn", a
 def path_panel(paths: dict, nodal_fields: dict, field=None, quantities=("snn", "von_mises"), n=101,
                shift_range=0.0):
     """A static figure of the first path, method set and quantity, then (if
-    ipywidgets is available) a panel to pick the path, the quantity and a
-    shift along the path normal (``shift_range``: the largest shift, 0 for
+    ipywidgets is available) a panel to pick the path, the quantity, the
+    recovery method (or all of them) and a shift along the path normal (``shift_range``: the largest shift, 0 for
     none) and see the plot update."""
     import matplotlib.pyplot as plt
     from IPython.display import display
@@ -62,12 +62,13 @@ def path_panel(paths: dict, nodal_fields: dict, field=None, quantities=("snn", "
     except ImportError:
         return None
 
-    def update(path, quantity, shift=0.0):
+    def update(path, quantity, method="all methods", shift=0.0):
+        chosen = nodal_fields if method == "all methods" else {method: nodal_fields[method]}
         f, a = plt.subplots(figsize=(7, 4))
-        plot_path_comparison(paths[path], nodal_fields, field, quantity, a, n=n, shift=shift, title=path)
+        plot_path_comparison(paths[path], chosen, field, quantity, a, n=n, shift=shift, title=path)
         plt.show()
 
-    kwargs = dict(path=list(paths), quantity=list(quantities))
+    kwargs = dict(path=list(paths), quantity=list(quantities), method=["all methods"] + list(nodal_fields))
     if shift_range:
         kwargs["shift"] = w.FloatSlider(value=0.0, min=-float(shift_range), max=float(shift_range),
                                         step=float(shift_range) / 20, description="shift")
