@@ -16,6 +16,9 @@ collect_ignore = ["tests/data"]
 
 
 def pytest_configure(config):
+    # nbval's kernels inherit this: workbooks draw their static figures and skip
+    # live widgets and progress widgets (see toolkit.report.headless)
+    os.environ["STRESSPATH_HEADLESS"] = "1"
     value = getattr(config.option, "nbval_sanitize_with", None)
     if not value or os.path.isabs(value):
         return

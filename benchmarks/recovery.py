@@ -591,7 +591,8 @@ def print_tables(rows, memory, sizes):
                   f"{fmt_iters(u.get('iterations')):>6}   graded {fmt_iters(g.get('iterations')):>6}")
 
     # shuffled numbering
-    print("\nShuffled node numbering (random permutation): project_l2 with renumber='auto' (RCM) vs False")
+    if any("l2_shuf_auto" in res for res in rows):
+        print("\nShuffled node numbering (random permutation): project_l2 with renumber='auto' (RCM) vs False")
     for res in rows:
         a, o, base = res.get("l2_shuf_auto", {}), res.get("l2_shuf_off", {}), res.get("l2", {})
         if "seconds" in a and "seconds" in o:

@@ -10,7 +10,8 @@ from toolkit.models import rectangle_mesh
 from toolkit.widgets import path_panel
 
 
-def test_panel_draws_and_every_choice_redraws(capsys):
+def test_panel_draws_and_every_choice_redraws(capsys, monkeypatch):
+    monkeypatch.delenv("STRESSPATH_HEADLESS", raising=False)
     m = rectangle_mesh("quad4", 6, 4, size=(3.0, 2.0))
     x = m.geometry("quad4", "full").x_cqi
     f = tk.GaussField(m, {"quad4": np.stack([x[..., 0], x[..., 1], 0 * x[..., 0]], -1)}, ("sxx", "syy", "sxy"))
@@ -29,3 +30,13 @@ def test_panel_draws_and_every_choice_redraws(capsys):
     panel.children[0].value = "mid"
     panel.children[3].value = 0.5
     panel.update()
+
+
+def test_headless_run_draws_only_the_static_figure(monkeypatch):
+    monkeypatch.setenv("STRESSPATH_HEADLESS", "1")
+    m = rectangle_mesh("quad4", 3, 3)
+    x = m.geometry("quad4", "full").x_cqi
+    f = tk.GaussField(m, {"quad4": np.stack([x[..., 0], x[..., 1], 0 * x[..., 0]], -1)}, ("sxx", "syy", "sxy"))
+    assert path_panel({"mid": tk.line((0.0, 0.5), (1.0, 0.5))}, {"L2": tk.project_l2(f)}, f) is None
+    monkeypatch.setenv("STRESSPATH_HEADLESS", "0")
+    assert path_panel({"mid": tk.line((0.0, 0.5), (1.0, 0.5))}, {"L2": tk.project_l2(f)}, f) is not None

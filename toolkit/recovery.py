@@ -37,6 +37,7 @@ from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import scipy.sparse as sp
+from scipy.linalg.blas import daxpy as _axpy, ddot as _dot, dscal as _scal
 
 from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
@@ -193,7 +194,6 @@ def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None, threads=1, parts=Non
     Z = np.empty_like(B)
     P = np.empty_like(B)
     Q = np.empty_like(B)
-    tmp = np.empty_like(B)
 
     def dots(U, V):
         return np.einsum("ij,ij->i", U, V)
@@ -214,18 +214,20 @@ def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None, threads=1, parts=Non
 
     def update(part, alpha):
         sl, _ = part
-        t = tmp[:, sl]
-        np.multiply(P[:, sl], alpha, out=t)
-        X[:, sl] += t
-        np.multiply(Q[:, sl], alpha, out=t)
-        R[:, sl] -= t
-        np.multiply(R[:, sl], dinv[sl], out=Z[:, sl])
-        return np.stack([dots(R[:, sl], R[:, sl]), dots(R[:, sl], Z[:, sl])])
+        rr, rz = np.empty(ncol), np.empty(ncol)
+        for i in range(ncol):                     # in-place BLAS on contiguous rows
+            _axpy(P[i, sl], X[i, sl], a=alpha[i])
+            _axpy(Q[i, sl], R[i, sl], a=-alpha[i])
+            np.multiply(R[i, sl], dinv[sl], out=Z[i, sl])
+            rr[i] = _dot(R[i, sl], R[i, sl])
+            rz[i] = _dot(R[i, sl], Z[i, sl])
+        return np.stack([rr, rz])
 
     def direction(part, beta):
         sl, _ = part
-        P[:, sl] *= beta
-        P[:, sl] += Z[:, sl]
+        for i in range(ncol):
+            _scal(beta[i], P[i, sl])
+            _axpy(Z[i, sl], P[i, sl], a=1.0)
 
     pool = ThreadPoolExecutor(len(parts)) if len(parts) > 1 else None
 
@@ -245,12 +247,12 @@ def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None, threads=1, parts=Non
             if done.all():
                 break
             pq = np.sum(run(product), axis=0)
-            alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))[:, None]
+            alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))
             rr, rz_new = np.sum(run(update, alpha), axis=0)
             rnorm = np.sqrt(rr)
             iters[~done] += 1
             done = done | (rnorm <= target)
-            beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))[:, None]
+            beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))
             rz = rz_new
             run(direction, beta)
     finally:

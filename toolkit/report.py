@@ -7,9 +7,21 @@ in notebooks and reports.
 from __future__ import annotations
 
 import html
+import os
 import platform
 
-__all__ = ["Table", "fmt", "inputs_table", "footer"]
+__all__ = ["Table", "fmt", "inputs_table", "footer", "headless", "HEADLESS_ENV"]
+
+HEADLESS_ENV = "STRESSPATH_HEADLESS"
+
+
+def headless() -> bool:
+    """True when a workbook runs without a person at it (``render``, ``demo``,
+    ``pytest --nbval``): live widgets and progress widgets are then left out,
+    because their comm traffic can stall a headless notebook client and they
+    would be dropped from the report anyway.  Set by the runner through the
+    ``STRESSPATH_HEADLESS`` environment variable."""
+    return os.environ.get(HEADLESS_ENV, "") not in ("", "0")
 
 
 def fmt(v, digits=4) -> str:

@@ -6,7 +6,7 @@ import numpy as np
 
 from .quality import grid_convergence
 from .recovery import average_nodal, project_l2
-from .report import Table
+from .report import Table, headless
 from .spr import recover_spr
 
 __all__ = ["METHODS", "recover_all", "convergence_study", "convergence_lines", "check_table"]
@@ -26,15 +26,17 @@ def recover_all(field, methods=("l2", "average", "spr")) -> dict:
     return out
 
 
-def convergence_study(run, sizes, quantity="peak stress", unit="MPa", progress=True):
+def convergence_study(run, sizes, quantity="peak stress", unit="MPa", progress=None):
     """Run ``run(size) -> value`` for each element size (finest first), then
     Richardson extrapolation and Roache's GCI (Celik et al. 2008) via
     :func:`toolkit.quality.grid_convergence`.
 
     Returns ``(values, ConvergenceResult, Table)``.  A tqdm bar shows the runs
-    (``tqdm.auto``: a widget in notebooks).
+    (``tqdm.auto``: a widget in notebooks) unless run headless.
     """
     sizes = [float(s) for s in sizes]
+    if progress is None:
+        progress = not headless()
     it = sizes
     if progress:
         from tqdm.auto import tqdm

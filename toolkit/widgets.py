@@ -11,6 +11,7 @@ from __future__ import annotations
 import numpy as np
 
 from .paths import raw_along, sample
+from .report import headless
 
 __all__ = ["path_panel", "plot_path_comparison"]
 
@@ -57,6 +58,8 @@ def path_panel(paths: dict, nodal_fields: dict, field=None, quantities=("snn", "
     plot_path_comparison(paths[first], nodal_fields, field, quantities[0], ax, n=n, title=first)
     display(fig)
     plt.close(fig)
+    if headless():
+        return None
     try:
         import ipywidgets as w
     except ImportError:

@@ -124,6 +124,7 @@ SUMMARY_METADATA_KEY = "stresspath"
 SUMMARY_FORMAT = 1
 WIDGET_VIEW_MIME = "application/vnd.jupyter.widget-view+json"
 WORKBOOK_DIR_ENV = "STRESSPATH_WORKBOOK_DIR"
+HEADLESS_ENV = "STRESSPATH_HEADLESS"   # same name as toolkit.report.HEADLESS_ENV (kept import-free)
 KERNELSPEC = {"display_name": "Python 3 (ipykernel)", "language": "python", "name": "python3"}
 
 
@@ -890,6 +891,7 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
                             on_cell_start=on_start, on_cell_executed=on_executed)
     env = dict(os.environ)
     env[WORKBOOK_DIR_ENV] = str(path.parent)
+    env[HEADLESS_ENV] = "1"          # no live widgets: see toolkit.report.headless
     try:
         client.execute(env=env)
     except (CellExecutionError, CellTimeoutError, DeadKernelError) as e:
