@@ -742,7 +742,8 @@ def _kernel_manager_class():
 
 
 _REMOTE_LOAD = re.compile(
-    r"""<(?:script|link|img|iframe|source|video|audio|embed|object|track|input)\b[^>]*?\b(?:src|href|data|srcset)\s*=\s*["']?\s*(?:https?:)?//"""
+    # any element whose src/href/data/srcset points off the page (plain links included)
+    r"""<[a-z][a-z0-9]*\b[^>]*?\b(?:src|href|data|srcset)\s*=\s*["']?\s*(?:https?:)?//"""
     r"""|url\(\s*["']?\s*(?:https?:)?//|@import""", re.IGNORECASE)
 _STYLE = re.compile(r"(<style[^>]*>)(.*?)(</style>)", re.DOTALL | re.IGNORECASE)
 _CSS_COMMENT = re.compile(r"/\*.*?\*/", re.DOTALL)
