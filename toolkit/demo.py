@@ -15,6 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from .fields import GaussField
+from .io import write_nodal_csv
 from .mesh import Mesh
 from .models.grid import rectangle_mesh
 from .recovery import average_nodal, project_l2
@@ -60,19 +61,7 @@ def quarter_annulus_mesh(etype="quad8", n_radial=8, n_angular=12, radius=1.0, ou
     return Mesh(nodes, {b.name: b.cells for b in base.blocks})
 
 
-def _write_nodal_csv(path, nodal, extra):
-    """CSV with node id, region, coordinates and the components (17 digits)."""
-    mesh = nodal.mesh
-    cols = ["node", "region", "x", "y"] + list(nodal.components) + list(extra)
-    data = np.column_stack([mesh.node_ids[nodal.node], nodal.region, mesh.nodes[nodal.node], nodal.values]
-                           + [extra[k] for k in extra])
-    with open(path, "w", encoding="utf-8") as fh:
-        fh.write(",".join(cols) + "\n")
-        for row in data:
-            fh.write(",".join([str(int(row[0])), str(int(row[1]))] + [format(v, ".17g") for v in row[2:]]) + "\n")
-
-
-def run_demo(out="demo-output", quiet=False):
+def run_demo(out="reports/recovery", quiet=False):
     """Run the recovery demo; returns a dict of the peak values."""
     import matplotlib
     matplotlib.use("Agg")
@@ -102,7 +91,7 @@ def run_demo(out="demo-output", quiet=False):
         table[name] = {"peak_sxx": peak, "peak_error": peak - 3.0, "max_abs_error": worst}
         say(f"  {name:<9} {peak:7.3f} {peak - 3.0:+8.3f} {worst:24.4f}")
     nodal = results["l2"]
-    _write_nodal_csv(out / "plate_hole_nodal_l2.csv", nodal, {"sxx_exact": exact_nodes[nodal.node, 0]})
+    write_nodal_csv(out / "plate_hole_nodal_l2.csv", nodal)
     fig, axes = plt.subplots(1, 3, figsize=(15, 4.4), constrained_layout=True)
     lo, hi = -1.0, 3.0
     contour_raw(field, "sxx", axes[0], vmin=lo, vmax=hi)
@@ -116,6 +105,6 @@ def run_demo(out="demo-output", quiet=False):
 
 
 def main(args=None) -> int:
-    out = getattr(args, "out", None) or "demo-output"
+    out = getattr(args, "out", None) or "reports/recovery"
     run_demo(out)
     return 0

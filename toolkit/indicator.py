@@ -20,7 +20,7 @@ from . import stress as _stress
 from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
 from .paths import RowLayout
-from .recovery import _detj_degree
+from .recovery import detj_degree
 
 __all__ = ["ErrorIndicator", "error_indicator", "compliance_matrix", "indicator_rule"]
 
@@ -67,7 +67,7 @@ def indicator_rule(element, npoints):
     (per coordinate on quads and hexes, total on simplices)."""
     _, gdeg = local_field_exponents(element.shape, npoints)
     ndeg = element.total_degree if element.is_simplex else element.degree
-    return rule_of_degree(element.shape, 2 * max(ndeg, gdeg) + _detj_degree(element))
+    return rule_of_degree(element.shape, 2 * max(ndeg, gdeg) + detj_degree(element))
 
 
 class ErrorIndicator:

@@ -223,8 +223,6 @@ class Mesh:
             return hit
         N, dN = et.evaluate(pts)                                 # (q, k), (q, k, j)
         xe = self.nodes[b.cells]                                 # (c, k, i)
-        m, k, d = xe.shape
-        q = len(pts)
         x = np.tensordot(xe, N, axes=([1], [1])).transpose(0, 2, 1)     # (c, q, i)
         J = np.tensordot(xe, dN, axes=([1], [1]))                # (c, i, q, j)
         J = np.ascontiguousarray(J.transpose(0, 2, 1, 3))        # (c, q, i, j)

@@ -43,7 +43,8 @@ from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
 from .mesh import Mesh
 
-__all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule"]
+__all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
+           "detj_degree"]
 
 
 # ---------------------------------------------------------------------------
@@ -133,7 +134,7 @@ def _rcm_permutation(dofmap: DofMap) -> np.ndarray:
 # ---------------------------------------------------------------------------
 # Rules
 # ---------------------------------------------------------------------------
-def _detj_degree(element) -> int:
+def detj_degree(element) -> int:
     """Degree of det J for straight-edged, flat-faced elements: per coordinate
     for quad (1) and hex (2), total for simplices (0)."""
     return {"quad": 1, "hex": 2}.get(element.shape, 0)
@@ -144,7 +145,7 @@ def rhs_rule(element, npoints: int):
     local field through ``npoints`` values."""
     _, gdeg = local_field_exponents(element.shape, npoints)
     ndeg = element.total_degree if element.is_simplex else element.degree
-    return rule_of_degree(element.shape, ndeg + gdeg + _detj_degree(element))
+    return rule_of_degree(element.shape, ndeg + gdeg + detj_degree(element))
 
 
 # ---------------------------------------------------------------------------
@@ -267,7 +268,7 @@ def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None, threads=1, parts=Non
     return X.T, iters, rel
 
 
-def _assemble_csr(scatters, cell_dofs, element_matrices, ndof):
+def assemble_csr(scatters, cell_dofs, element_matrices, ndof):
     """Assemble element matrices (m, k*k) into one CSR matrix.
 
     The scatter matrices (ndof, m*k) in CSC form turn into CSR with a
@@ -390,7 +391,7 @@ class L2Projector:
             self.matrix = None
             self.diagonal = diag_hrz
             return
-        M = _assemble_csr(scatters, cell_dofs, matrices, ndof)
+        M = assemble_csr(scatters, cell_dofs, matrices, ndof)
         self.matrix = M
         self.diagonal = M.diagonal()
         self._factor = None

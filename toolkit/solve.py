@@ -43,7 +43,7 @@ import scipy.sparse as sp
 
 from .fields import GaussField
 from .mesh import Mesh
-from .recovery import _assemble_csr
+from .recovery import assemble_csr
 
 __all__ = [
     "Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement",
@@ -813,7 +813,7 @@ def solve(model, materials=None, analysis=None, thickness=None, loads=None, supp
         S = sp.csc_matrix((np.ones(d.size), d.ravel(), np.arange(d.size + 1)), shape=(2 * n, d.size))
         scat.append(S); cdofs.append(d); mats_e.append(Ke.reshape(m, -1))
         del Ke
-    K = _assemble_csr(scat, cdofs, mats_e, 2 * n)
+    K = assemble_csr(scat, cdofs, mats_e, 2 * n)
     del scat, cdofs, mats_e
     fv = f.ravel()
     rhs_full = fv - (K @ up if np.any(up) else 0.0)
