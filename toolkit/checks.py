@@ -59,7 +59,9 @@ def _fmt(v):
     if isinstance(v, (float, np.floating)):
         return f"{float(v):.6g}"
     if isinstance(v, np.ndarray):
-        return np.array2string(v, precision=5, threshold=8)
+        if v.dtype.kind == "f":     # 6 significant digits, like the scalars (not solver round-off)
+            return np.array2string(v, threshold=8, separator=" ", formatter={"float_kind": lambda x: f"{x:.6g}"})
+        return np.array2string(v, threshold=8)
     if isinstance(v, SNCurve):
         return v.label()
     return str(v)

@@ -31,20 +31,20 @@ any number of fields.
 """
 from __future__ import annotations
 
-import os
 import time
-from concurrent.futures import ThreadPoolExecutor
 
 import numpy as np
 import scipy.sparse as sp
-from scipy.linalg.blas import daxpy as _axpy, ddot as _dot, dscal as _scal
 
 from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
+from .linalg import CGLayout, Pattern, assemble_csr, block_cg, default_threads
 from .mesh import Mesh
 
 __all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
-           "detj_degree"]
+           "detj_degree", "unit_mass_inverse", "PRECONDITIONERS"]
+
+PRECONDITIONERS = ("auto", "element", "jacobi")
 
 
 # ---------------------------------------------------------------------------
@@ -107,7 +107,7 @@ class DofMap:
     def locality(self) -> float:
         """Mean spread (max - min unknown number) per cell, relative to the
         spread a well-ordered mesh of this size has (about ndof^((d-1)/d))."""
-        spans = [np.mean(v.max(axis=1) - v.min(axis=1)) for v in self.cell_dofs.values()]
+        spans = [np.mean(np.ptp(v[:: max(1, len(v) // 20000)], axis=1)) for v in self.cell_dofs.values()]  # a sample
         d = self.mesh.dim
         return float(np.mean(spans)) / max(1.0, self.ndof ** ((d - 1) / d))
 
@@ -148,159 +148,23 @@ def rhs_rule(element, npoints: int):
     return rule_of_degree(element.shape, ndeg + gdeg + detj_degree(element))
 
 
-# ---------------------------------------------------------------------------
-# Block conjugate gradients
-# ---------------------------------------------------------------------------
-def row_parts(A, parts: int):
-    """Split a CSR matrix into ``parts`` contiguous row blocks of about equal
-    non-zeros: ``[(row slice, block), ...]``."""
-    n = A.shape[0]
-    if parts <= 1 or n < 2 * parts:
-        return [(slice(0, n), A)]
-    cuts = np.searchsorted(A.indptr, np.linspace(0, A.nnz, parts + 1)[1:-1])
-    edges = np.r_[0, cuts, n]
-    return [(slice(int(lo), int(hi)), A[int(lo):int(hi)]) for lo, hi in zip(edges[:-1], edges[1:]) if hi > lo]
+def unit_mass_inverse(element) -> np.ndarray:
+    """Inverse of the element type's mass matrix ``∫ N^T N dξ`` scaled to unit
+    measure (k, k).
 
-
-def default_threads(n: int) -> int:
-    """Threads for the conjugate-gradient loop: one for small systems, else
-    the machine's cores (scipy's sparse products and numpy's element-wise
-    operations release the GIL), at most 4."""
-    return 1 if n < 50_000 else max(1, min(4, os.cpu_count() or 1))
-
-
-def block_cg(A, B, dinv, x0=None, rtol=1e-10, maxiter=None, threads=1, parts=None):
-    """Jacobi-preconditioned conjugate gradients for every column of ``B`` at
-    once (each column keeps its own step lengths; the matrix is shared).
-    Stops each column when ``||b - A x|| <= rtol ||b||``.
-
-    Internally the columns are stored as rows (components, n), so every
-    vector operation runs over long contiguous arrays.  With ``threads > 1``
-    the rows are split into blocks of equal non-zeros (``parts``, from
-    :func:`row_parts`) and each thread runs the matrix product and the vector
-    updates of its block; the step lengths come from the summed partial dot
-    products, so the iterates equal the single-thread ones up to rounding.
-
-    Returns ``X (n, columns), iterations (per column), relative residuals``.
-    Raises ``RuntimeError`` if a column has not converged after ``maxiter``.
+    The conjugate-gradient preconditioner assembles ``R_e^T (this / |e|)
+    R_e`` over the cells: the exact inverse of every parallelogram (or
+    affine) cell's mass matrix, a close one otherwise, so it undoes the
+    within-cell coupling that a diagonal leaves behind.  Rescaled
+    symmetrically to the matrix diagonal (which repairs the boundary nodes,
+    where fewer cells meet), it brings the condition number from 9 to 1.8
+    for quad4 (4 to 1.6 tri3, 6.3 to 1.5 quad9, 5.3 to 1.9 tri6; 18 to 5.4
+    quad8), measured on uniform meshes.
     """
-    B = np.ascontiguousarray(np.asarray(B, dtype=float).T)          # (c, n)
-    ncol, n = B.shape
-    maxiter = maxiter or max(200, 10 * int(np.sqrt(n)))
-    parts = parts if parts is not None else row_parts(A, threads)
-    dinv = np.asarray(dinv, dtype=float)
-
-    X = np.zeros_like(B) if x0 is None else np.ascontiguousarray(np.asarray(x0, dtype=float).T)
-    R = np.empty_like(B)
-    Z = np.empty_like(B)
-    P = np.empty_like(B)
-    Q = np.empty_like(B)
-
-    def dots(U, V):
-        return np.einsum("ij,ij->i", U, V)
-
-    def start(part):
-        sl, Ap = part
-        for i in range(ncol):
-            R[i, sl] = B[i, sl] - Ap @ X[i] if x0 is not None else B[i, sl]
-        np.multiply(R[:, sl], dinv[sl], out=Z[:, sl])
-        P[:, sl] = Z[:, sl]
-        return np.stack([dots(R[:, sl], Z[:, sl]), dots(R[:, sl], R[:, sl]), dots(B[:, sl], B[:, sl])])
-
-    def product(part):
-        sl, Ap = part
-        for i in range(ncol):
-            Q[i, sl] = Ap @ P[i]
-        return dots(P[:, sl], Q[:, sl])
-
-    def update(part, alpha):
-        sl, _ = part
-        rr, rz = np.empty(ncol), np.empty(ncol)
-        for i in range(ncol):                     # in-place BLAS on contiguous rows
-            _axpy(P[i, sl], X[i, sl], a=alpha[i])
-            _axpy(Q[i, sl], R[i, sl], a=-alpha[i])
-            np.multiply(R[i, sl], dinv[sl], out=Z[i, sl])
-            rr[i] = _dot(R[i, sl], R[i, sl])
-            rz[i] = _dot(R[i, sl], Z[i, sl])
-        return np.stack([rr, rz])
-
-    def direction(part, beta):
-        sl, _ = part
-        for i in range(ncol):
-            _scal(beta[i], P[i, sl])
-            _axpy(Z[i, sl], P[i, sl], a=1.0)
-
-    pool = ThreadPoolExecutor(len(parts)) if len(parts) > 1 else None
-
-    def run(fn, *args):
-        if pool is None:
-            return [fn(parts[0], *args)]
-        return list(pool.map(lambda pt: fn(pt, *args), parts))
-
-    try:
-        rz, rr, bb = np.sum(run(start), axis=0)
-        bnorm = np.sqrt(bb)
-        target = rtol * bnorm
-        rnorm = np.sqrt(rr)
-        done = rnorm <= target
-        iters = np.zeros(ncol, dtype=int)
-        for _ in range(maxiter):
-            if done.all():
-                break
-            pq = np.sum(run(product), axis=0)
-            alpha = np.where(done, 0.0, rz / np.where(done, 1.0, pq))
-            rr, rz_new = np.sum(run(update, alpha), axis=0)
-            rnorm = np.sqrt(rr)
-            iters[~done] += 1
-            done = done | (rnorm <= target)
-            beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))
-            rz = rz_new
-            run(direction, beta)
-    finally:
-        if pool is not None:
-            pool.shutdown()
-    if not done.all():
-        bad = np.flatnonzero(~done)
-        raise RuntimeError(f"conjugate gradients did not reach rtol={rtol:g} in {maxiter} iterations for "
-                           f"column(s) {bad.tolist()} (relative residual "
-                           f"{(rnorm[bad] / np.where(bnorm[bad] == 0, 1, bnorm[bad])).max():.3g})")
-    rel = rnorm / np.where(bnorm == 0, 1.0, bnorm)
-    return X.T, iters, rel
-
-
-def assemble_csr(scatters, cell_dofs, element_matrices, ndof):
-    """Assemble element matrices (m, k*k) into one CSR matrix.
-
-    The scatter matrices (ndof, m*k) in CSC form turn into CSR with a
-    counting sort (linear time, in C), which lists for every unknown the
-    (cell, local node) slots that touch it; each slot contributes one row of
-    its element matrix.  Duplicate columns are then summed by scipy.  This
-    avoids building and sorting full COO triplets.
-    """
-    indptr_parts, ind_parts, dat_parts = [], [], []
-    for S, dofs, Me in zip(scatters, cell_dofs, element_matrices):
-        m, k = dofs.shape
-        Sr = S.tocsr()                                   # rows: unknowns; columns: slots c*k + a
-        slots = Sr.indices                               # slot s = c*k + a: local node a of cell c
-        ind_parts.append(np.take(dofs, slots // k, axis=0))          # (m*k, k) columns of each slot's row
-        dat_parts.append(np.take(Me.reshape(m * k, k), slots, axis=0))  # row a of cell c's matrix
-        indptr_parts.append(np.diff(Sr.indptr) * k)
-    if len(ind_parts) == 1:
-        counts = indptr_parts[0]
-        ind = ind_parts[0].ravel()
-        dat = dat_parts[0].ravel()
-    else:
-        # several blocks: concatenate and let COO sort them out
-        rows = np.concatenate([np.repeat(np.arange(ndof), cnt) for cnt in indptr_parts])
-        ind = np.concatenate([i.ravel() for i in ind_parts])
-        dat = np.concatenate([d.ravel() for d in dat_parts])
-        return sp.coo_matrix((dat, (rows, ind)), shape=(ndof, ndof)).tocsr()   # sums duplicates
-    idx_t = np.int32 if ind.size < 2**31 and ndof < 2**31 else np.int64
-    indptr = np.zeros(ndof + 1, dtype=idx_t)
-    np.cumsum(counts, out=indptr[1:])
-    M = sp.csr_matrix((dat, ind.astype(idx_t, copy=False), indptr), shape=(ndof, ndof))
-    M.sum_duplicates()
-    return M
+    r = element.rule("mass")
+    N = element.shape_functions(r.points)
+    Mu = np.einsum("q,qa,qb->ab", r.weights / r.weights.sum(), N, N)
+    return np.linalg.inv(Mu)
 
 
 # ---------------------------------------------------------------------------
@@ -318,9 +182,15 @@ class L2Projector:
     across_regions : bool
         Smooth across region boundaries (default: one value per region at
         shared nodes).
-    solver : ``"cg"`` (default; Jacobi block CG) or ``"direct"`` (sparse LU,
-        factorised once).
+    solver : ``"cg"`` (default; preconditioned block CG) or ``"direct"``
+        (sparse LU, factorised once).
     rtol : relative residual for ``"cg"`` (default 1e-10).
+    preconditioner : for ``"cg"``: ``"element"`` (assembled inverses of the
+        cells' unit mass matrices, rescaled to the matrix diagonal; see
+        :func:`unit_mass_inverse`), ``"jacobi"`` (the diagonal), or
+        ``"auto"`` (default: ``"element"``, except ``"jacobi"`` on meshes
+        of serendipity elements (quad8, hex20), where the element
+        preconditioner saves iterations but not sparse products).
     renumber : ``"auto"`` (renumber with reverse Cuthill–McKee when the
         numbering is scattered), ``True`` or ``False``.
     threads : threads for the conjugate-gradient loop (default: 1 below
@@ -332,13 +202,15 @@ class L2Projector:
     """
 
     def __init__(self, mesh: Mesh, lumped=False, across_regions=False, solver="cg", rtol=1e-10,
-                 maxiter=None, renumber="auto", threads=None):
+                 maxiter=None, renumber="auto", threads=None, preconditioner="auto"):
         if not isinstance(mesh, Mesh):
             raise ValueError("L2Projector needs a Mesh")
         if solver not in ("cg", "direct"):
             raise ValueError(f"solver must be 'cg' or 'direct', got {solver!r}")
         if renumber not in ("auto", True, False):
             raise ValueError(f"renumber must be 'auto', True or False, got {renumber!r}")
+        if preconditioner not in PRECONDITIONERS:
+            raise ValueError(f"preconditioner must be one of {', '.join(PRECONDITIONERS)}, got {preconditioner!r}")
         if not (0 < rtol < 1):
             raise ValueError(f"rtol must lie in (0, 1), got {rtol}")
         t0 = time.perf_counter()
@@ -347,6 +219,10 @@ class L2Projector:
         self.solver = solver
         self.rtol = float(rtol)
         self.maxiter = maxiter
+        if preconditioner == "auto":
+            serendipity = all(b.element.name in ("quad8", "hex20") for b in mesh.blocks)
+            preconditioner = "jacobi" if serendipity else "element"
+        self.preconditioner = preconditioner
         self._parts = None
         base = DofMap(mesh, across_regions)
         self.locality = base.locality()
@@ -360,44 +236,72 @@ class L2Projector:
         self._scatter = {b.name: self.dofs.scatter(b.name) for b in mesh.blocks}
         self._rhs_cache: dict = {}
         self._hrz: dict = {}
+        self._lumped_diagonal = None
         self._assemble()
         self.threads = int(threads) if threads else default_threads(self.dofs.ndof)
         self.setup_time = time.perf_counter() - t0
 
     # -- assembly ------------------------------------------------------------
     def _assemble(self):
-        """Mass matrix C = Σ_e ∫ N^T N dΩ (consistent) and its HRZ-lumped
-        diagonal (each cell's diagonal scaled to the cell's measure)."""
+        """Mass matrix C = Σ_e ∫ N^T N dΩ (consistent) and the
+        conjugate-gradient preconditioner (or the LU factor)."""
         ndof = self.dofs.ndof
-        diag_hrz = np.zeros(ndof)
-        scatters, cell_dofs, matrices = [], [], []
+        self.matrix = self._precond = self._factor = None
+        if self.lumped:
+            self.diagonal = self.lumped_diagonal
+            return
+        cell_dofs, matrices, measures = [], [], []
         for b in self.mesh.blocks:
             g = self.mesh.geometry(b.name, "mass")
             N = g.N_qk
             k = N.shape[1]
-            NN = (N[:, :, None] * N[:, None, :]).reshape(len(N), k * k)
-            Me = g.dV_cq @ NN                                         # (c, k*k)
-            dpos = np.arange(k) * (k + 1)
-            d = Me[:, dpos]
-            hrz = d * (g.dV_cq.sum(axis=1) / d.sum(axis=1))[:, None]  # HRZ: diagonal scaled to the cell's measure
-            diag_hrz += self._scatter[b.name] @ hrz.ravel()
-            self._hrz[b.name] = hrz
-            if not self.lumped:
-                scatters.append(self._scatter[b.name])
-                cell_dofs.append(self.dofs.cell_dofs[b.name])
-                matrices.append(Me)
-        self.lumped_diagonal = diag_hrz
-        if self.lumped:
-            self.matrix = None
-            self.diagonal = diag_hrz
-            return
-        M = assemble_csr(scatters, cell_dofs, matrices, ndof)
+            matrices.append(g.dV_cq @ (N[:, :, None] * N[:, None, :]).reshape(len(N), k * k))   # (c, k*k)
+            measures.append(g.dV_cq @ np.ones(len(N)))
+            cell_dofs.append(self.dofs.cell_dofs[b.name])
+        pattern = Pattern(cell_dofs, ndof)
+        M = pattern.matrix(matrices)
+        del matrices
         self.matrix = M
         self.diagonal = M.diagonal()
-        self._factor = None
         if self.solver == "direct":
             from scipy.sparse.linalg import splu
             self._factor = splu(M.tocsc())
+        elif self.preconditioner == "element":
+            inv = [np.outer(1.0 / vol, unit_mass_inverse(b.element).ravel())
+                   for b, vol in zip(self.mesh.blocks, measures)]
+            P = pattern.matrix(inv)
+            del inv
+            s = 1.0 / np.sqrt(P.diagonal() * self.diagonal)          # rescale: diag(S P S) diag(M) = 1
+            P.data *= s[P.indices]
+            P.data *= np.repeat(s, np.diff(P.indptr))
+            self._precond = P
+        else:
+            self._precond = 1.0 / self.diagonal
+
+    def hrz_masses(self, name) -> np.ndarray:
+        """HRZ nodal masses of every cell of block ``name`` (c, k): the
+        consistent matrix's diagonal scaled to the cell's measure (Hinton,
+        Rock & Zienkiewicz 1976); every one positive."""
+        hrz = self._hrz.get(name)
+        if hrz is None:
+            g = self.mesh.geometry(name, "mass")
+            N = g.N_qk
+            d = g.dV_cq @ (N * N)                                     # diagonal of the cell matrices
+            vol = g.dV_cq @ np.ones(len(N))
+            hrz = d * (vol / (d @ np.ones(N.shape[1])))[:, None]
+            self._hrz[name] = hrz
+        return hrz
+
+    @property
+    def lumped_diagonal(self) -> np.ndarray:
+        """The HRZ-lumped mass matrix (ndof,)."""
+        if self._lumped_diagonal is None:
+            diag = np.zeros(self.dofs.ndof)
+            for b in self.mesh.blocks:
+                diag += np.bincount(self.dofs.cell_dofs[b.name].ravel(), weights=self.hrz_masses(b.name).ravel(),
+                                    minlength=self.dofs.ndof)
+            self._lumped_diagonal = diag
+        return self._lumped_diagonal
 
     # -- right-hand side -----------------------------------------------------
     def _rhs_operator(self, name, points):
@@ -425,7 +329,7 @@ class L2Projector:
             for name, V in field.values.items():
                 et = self.mesh.block(name).element
                 E = local_field_matrix(et, field.points[name], et.nodes)     # (k, q)
-                ve = np.matmul(E, V) * self._hrz[name][:, :, None]            # (c, k, a)
+                ve = np.matmul(E, V) * self.hrz_masses(name)[:, :, None]            # (c, k, a)
                 b += self._scatter[name] @ ve.reshape(-1, field.ncomponents)
             return b
         for name, V in field.values.items():
@@ -452,21 +356,24 @@ class L2Projector:
             raise ValueError(f"the right-hand side of component {field.components[a]} overflows: values of "
                              f"about {np.abs(next(iter(field.values.values()))).max():.3g} times cell sizes "
                              "exceed the floating-point range; rescale the values (units)")
-        x0 = b / self.lumped_diagonal[:, None]
         info = {"method": "lumped" if self.lumped else "l2", "ndof": self.dofs.ndof,
                 "renumbered": self.renumbered, "across_regions": self.dofs.across_regions}
         if self.lumped:
-            x = x0
+            x = b / self.lumped_diagonal[:, None]
         elif self.solver == "direct":
             x = self._factor.solve(b)
             info["solver"] = "direct"
         else:
             if self._parts is None:
-                self._parts = row_parts(self.matrix, self.threads)
-            x, it, res = block_cg(self.matrix, b, 1.0 / self.diagonal, x0, self.rtol, self.maxiter,
-                                  parts=self._parts)
-            info.update(solver="cg", iterations=it.tolist(), relative_residual=res.tolist(), rtol=self.rtol,
-                        threads=len(self._parts))
+                self._parts = CGLayout(self.matrix, self._precond, self.threads)
+            if self.preconditioner == "element":
+                x0 = self._precond @ b                        # one preconditioner step: a close start
+            else:
+                x0 = b / self.lumped_diagonal[:, None]        # the HRZ-lumped projection
+            x, it, res = block_cg(self.matrix, b, self._precond, x0, self.rtol, self.maxiter,
+                                  layout=self._parts)
+            info.update(solver="cg", preconditioner=self.preconditioner, iterations=it.tolist(),
+                        relative_residual=res.tolist(), rtol=self.rtol, threads=len(self._parts.threads))
         if self._new_of_old is not None:
             x = x[self._new_of_old]
         info["time"] = time.perf_counter() - t0
@@ -483,7 +390,7 @@ class L2Projector:
 
 
 def project_l2(field: GaussField, lumped=False, across_regions=False, solver="cg", rtol=1e-10,
-               maxiter=None, renumber="auto", threads=None) -> NodalField:
+               maxiter=None, renumber="auto", threads=None, preconditioner="auto") -> NodalField:
     """Global L2 projection of ``field`` to the nodes (Hinton & Campbell 1974).
 
     Builds an :class:`L2Projector` and projects once; keep a projector to
@@ -491,7 +398,8 @@ def project_l2(field: GaussField, lumped=False, across_regions=False, solver="cg
     options.
     """
     proj = L2Projector(field.mesh, lumped=lumped, across_regions=across_regions, solver=solver,
-                       rtol=rtol, maxiter=maxiter, renumber=renumber, threads=threads)
+                       rtol=rtol, maxiter=maxiter, renumber=renumber, threads=threads,
+                       preconditioner=preconditioner)
     return proj.project(field)
 
 

@@ -43,7 +43,7 @@ import scipy.sparse as sp
 
 from .fields import GaussField
 from .mesh import Mesh
-from .recovery import assemble_csr
+from .linalg import assemble_csr
 
 __all__ = [
     "Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement",
@@ -803,18 +803,17 @@ def solve(model, materials=None, analysis=None, thickness=None, loads=None, supp
 
     # stiffness
     t0 = time.perf_counter()
-    scat, cdofs, mats_e = [], [], []
+    cdofs, mats_e = [], []
     for b in mesh.blocks:
         Ke = element_stiffness(mesh, b, rule, analysis, thick, mats)
         m, k = b.cells.shape
         d = np.empty((m, 2 * k), dtype=np.int64 if 2 * n > 2**31 - 1 else np.int32)
         d[:, 0::2] = 2 * b.cells
         d[:, 1::2] = 2 * b.cells + 1
-        S = sp.csc_matrix((np.ones(d.size), d.ravel(), np.arange(d.size + 1)), shape=(2 * n, d.size))
-        scat.append(S); cdofs.append(d); mats_e.append(Ke.reshape(m, -1))
+        cdofs.append(d); mats_e.append(Ke.reshape(m, -1))
         del Ke
-    K = assemble_csr(scat, cdofs, mats_e, 2 * n)
-    del scat, cdofs, mats_e
+    K = assemble_csr(cdofs, mats_e, 2 * n)
+    del cdofs, mats_e
     fv = f.ravel()
     rhs_full = fv - (K @ up if np.any(up) else 0.0)
     if selection:
