@@ -43,6 +43,7 @@ MIB = 2.0 ** 20
 LABELS = {
     "average": "average_nodal",
     "l2": "project_l2",
+    "l2_jacobi": "project_l2, preconditioner='jacobi'",
     "reused": "L2Projector.project (reused, 2nd field)",
     "skfem": "scikit-fem (asm + spsolve)",
     "loop": "element loop (asm + spsolve)",
@@ -308,6 +309,9 @@ def worker(spec):
     elif method in ("l2", "l2_graded"):
         def run():
             return toolkit.project_l2(field)
+    elif method == "l2_jacobi":
+        def run():
+            return toolkit.project_l2(field, preconditioner="jacobi")
     elif method in ("l2_shuf_auto", "l2_shuf_off"):
         renumber = "auto" if method == "l2_shuf_auto" else False
         note = f"locality {DofMap(mesh).locality():.0f}"
@@ -393,12 +397,17 @@ def run_worker(spec, timeout, mem_limit_gib):
 # Report
 # ---------------------------------------------------------------------------
 def recovery_fingerprint() -> str:
-    """Short sha256 of toolkit/recovery.py as imported (the code under test
-    can change between runs; every measurement records which one it ran)."""
+    """Short sha256 of toolkit/recovery.py and toolkit/linalg.py as imported
+    (the code under test can change between runs; every measurement records
+    which one it ran)."""
     import hashlib
+    import toolkit.linalg
     import toolkit.recovery
-    with open(toolkit.recovery.__file__, "rb") as f:
-        return hashlib.sha256(f.read()).hexdigest()[:12]
+    h = hashlib.sha256()
+    for mod in (toolkit.recovery, toolkit.linalg):
+        with open(mod.__file__, "rb") as f:
+            h.update(f.read())
+    return h.hexdigest()[:12]
 
 
 def machine_info():
@@ -425,7 +434,7 @@ def machine_info():
     except ImportError:
         skv = "not installed"
     lines.append(f"versions: python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}, "
-                 f"scikit-fem {skv}, stresspath {toolkit.__version__} (toolkit/recovery.py sha256 "
+                 f"scikit-fem {skv}, stresspath {toolkit.__version__} (toolkit/recovery.py + linalg.py sha256 "
                  f"{recovery_fingerprint()})")
     lines.append(f"load    : {' '.join(f'{v:.2f}' for v in os.getloadavg())} (1, 5, 15 min averages at the start)")
     return lines
@@ -487,7 +496,7 @@ def main(argv=None):
         print(line)
     print(f"memory  : {'peak resident-set rise (VmHWM reset via /proc/self/clear_refs, minus VmRSS before the call), fresh subprocess per measurement' if memory == 'rss' else 'tracemalloc peak (numpy tracked; C-library buffers such as SuperLU not counted), fresh subprocess per measurement'}")
     print(f"problem : rectangle_mesh side x side cells, distort={args.distort}, 3 stress components at the full rule "
-          f"+ element-wise noise; project_l2 defaults (Jacobi block CG, rtol 1e-10, renumber='auto')")
+          f"+ element-wise noise; project_l2 defaults (block CG, preconditioner='auto': element, or Jacobi for quad8; rtol 1e-10, renumber='auto')")
     print(flush=True)
 
     tmp = tempfile.mkdtemp(prefix="stresspath_bench_")
@@ -499,7 +508,7 @@ def main(argv=None):
             for n in sizes:
                 side = side_for(n)
                 repeat = args.repeat or (2 if side * side <= 100000 else 1)
-                methods = ["average", "l2", "reused"]
+                methods = ["average", "l2", "l2_jacobi", "reused"]
                 if not args.no_skfem:
                     methods.append("skfem")
                 if not args.no_loop and n == sizes[0]:
@@ -509,7 +518,7 @@ def main(argv=None):
                 res = {}
                 for mth in methods:
                     save = os.path.join(tmp, f"{etype}_{side}_{mth}.npy") \
-                        if mth in ("l2", "skfem", "loop", "l2_shuf_auto", "l2_shuf_off") else None
+                        if mth in ("l2", "l2_jacobi", "skfem", "loop", "l2_shuf_auto", "l2_shuf_off") else None
                     spec = dict(method=mth, etype=etype, side=side, seed=args.seed, distort=args.distort,
                                 repeat=repeat, memory=memory, save=save)
                     t0 = time.perf_counter()
@@ -542,7 +551,7 @@ def main(argv=None):
     print_tables(rows, memory, sizes)
     codes = sorted({r["code"] for res in rows for r in res.values() if "code" in r})
     if len(codes) > 1:
-        print(f"\nWARNING: toolkit/recovery.py changed during the run (sha256 {', '.join(codes)}); "
+        print(f"\nWARNING: toolkit/recovery.py or linalg.py changed during the run (sha256 {', '.join(codes)}); "
               "rows are not all from the same code")
     print(f"\ntotal wall time {time.perf_counter() - t_start:.0f} s; load average at the end "
           f"{' '.join(f'{v:.2f}' for v in os.getloadavg())} (other processes on this machine skew the times)")
@@ -555,7 +564,7 @@ def print_tables(rows, memory, sizes):
             f"{'t/t_avg':>8} {'t_skfem/t':>9} {'diff vs l2':>10}  note")
     print("\n" + head)
     print("-" * len(head))
-    order = ["average", "l2", "reused", "skfem", "loop", "loop_x", "l2_graded", "l2_shuf_auto", "l2_shuf_off"]
+    order = ["average", "l2", "l2_jacobi", "reused", "skfem", "loop", "loop_x", "l2_graded", "l2_shuf_auto", "l2_shuf_off"]
     for res in rows:
         avg = res.get("average", {}).get("seconds")
         skf = res.get("skfem", {}).get("seconds")
@@ -583,7 +592,7 @@ def print_tables(rows, memory, sizes):
         print()
 
     # CG iterations, uniform vs graded
-    print("CG iterations (Jacobi block CG, rtol 1e-10): distorted uniform mesh vs mesh graded 100:1 in x and y")
+    print("CG iterations (block CG, default preconditioner, rtol 1e-10): distorted uniform mesh vs mesh graded 100:1 in x and y")
     for res in rows:
         u, g = res.get("l2", {}), res.get("l2_graded", {})
         if "iterations" in u or "iterations" in g:
