@@ -9,7 +9,7 @@ from hypothesis import given, settings, strategies as st
 
 from toolkit import L2Projector, Mesh, project_l2
 from toolkit.elements import ELEMENTS
-from toolkit.linalg import CGLayout, Pattern, assemble_csr, block_cg
+from toolkit.linalg import CGLayout, Pattern, assemble_csr, block_cg, row_slice
 from toolkit.models import box_mesh, rectangle_mesh
 from toolkit.recovery import unit_mass_inverse
 from test_recovery import _field, _smooth
@@ -144,3 +144,14 @@ def test_auto_preconditioner_choice_and_errors():
     assert L2Projector(rectangle_mesh("quad4", 2, 2)).preconditioner == "element"
     with pytest.raises(ValueError, match="preconditioner must be"):
         L2Projector(rectangle_mesh("quad4", 2, 2), preconditioner="ilu")
+
+
+def test_row_slice_is_a_view_and_multiplies_like_a_copy():
+    m = rectangle_mesh("quad4", 9, 7, distort=0.2)
+    A = L2Projector(m).matrix
+    X = np.random.default_rng(0).normal(size=(A.shape[0], 3))
+    for lo, hi in ((0, 5), (13, 41), (40, A.shape[0])):
+        V = row_slice(A, lo, hi)
+        assert np.shares_memory(V.data, A.data) and np.shares_memory(V.indices, A.indices)
+        np.testing.assert_array_equal(V @ X, A[lo:hi] @ X)
+        np.testing.assert_array_equal(V.toarray(), A[lo:hi].toarray())
