@@ -9,7 +9,7 @@ from hypothesis import given, settings, strategies as st
 
 from toolkit import L2Projector, Mesh, project_l2
 from toolkit.elements import ELEMENTS
-from toolkit.linalg import CGLayout, Pattern, assemble_csr, block_cg, row_slice
+from toolkit.linalg import CGLayout, Scaled, assemble_csr, assemble_many, block_cg, row_slice
 from toolkit.models import box_mesh, rectangle_mesh
 from toolkit.recovery import unit_mass_inverse
 from test_recovery import _field, _smooth
@@ -25,31 +25,41 @@ def _coo_reference(cell_dofs, mats, n):
 
 @settings(max_examples=60, deadline=None)
 @given(st.integers(0, 2**31 - 1), st.lists(st.tuples(st.integers(1, 40), st.integers(1, 6)), min_size=1, max_size=3),
-       st.integers(1, 60))
-def test_pattern_matches_coo_assembly(seed, blocks, n):
+       st.integers(1, 60), st.sampled_from([1, 3, 7, 1000]))
+def test_assemble_many_matches_coo_assembly(seed, blocks, n, chunk):
     """Any blocks of cells (repeated cells, unknowns in no cell, several
-    widths) assemble to the same matrix as COO summation."""
+    widths), any chunk size: the same matrices as COO summation, for plain
+    and factored (Scaled) element values assembled together."""
     rng = np.random.default_rng(seed)
     n = max(n, max(k for _, k in blocks))
     dofs = [np.array([rng.permutation(n)[:k] for _ in range(m)]) for m, k in blocks]
     mats = [rng.normal(size=(m, k * k)) for m, k in blocks]
-    p = Pattern(dofs, n)
-    A = p.matrix(mats)
-    ref = _coo_reference(dofs, mats, n)
-    assert A.has_canonical_format
-    assert A.nnz == ref.nnz
-    np.testing.assert_array_equal(A.indptr, ref.indptr)
-    np.testing.assert_array_equal(A.indices, ref.indices)
-    np.testing.assert_allclose(A.data, ref.data, rtol=1e-12, atol=1e-12)
-    # the same plan assembles a second matrix
-    mats2 = [np.abs(m_) for m_ in mats]
-    np.testing.assert_allclose(p.matrix(mats2).toarray(), _coo_reference(dofs, mats2, n).toarray(), atol=1e-12)
+    ws = [rng.uniform(0.5, 2.0, size=m) for m, k in blocks]
+    Ks = [rng.normal(size=(k, k)) for _, k in blocks]
+    sv = rng.uniform(0.5, 2.0, size=n)
+    scaled = [Scaled(w, K, sv) for w, K in zip(ws, Ks)]
+    explicit = [(sv[d][:, :, None] * w[:, None, None] * K[None] * sv[d][:, None, :]).reshape(len(w), -1)
+                for d, w, K in zip(dofs, ws, Ks)]
+    A, B = assemble_many(dofs, [mats, scaled], n, chunk_rows=chunk)
+    for got, vals in ((A, mats), (B, explicit)):
+        ref = _coo_reference(dofs, vals, n)
+        assert got.has_canonical_format
+        assert got.nnz == ref.nnz
+        np.testing.assert_array_equal(got.indptr, ref.indptr)
+        np.testing.assert_array_equal(got.indices, ref.indices)
+        np.testing.assert_allclose(got.data, ref.data, rtol=1e-12, atol=1e-12)
 
 
-def test_pattern_rejects_wrong_sizes():
-    p = Pattern([np.array([[0, 1, 2]])], 3)
+def test_assemble_many_rejects_wrong_sizes():
+    d = [np.array([[0, 1, 2]])]
     with pytest.raises(ValueError, match=r"\(1, 3, 3\)"):
-        p.data([np.ones((1, 4))])
+        assemble_many(d, [[np.ones((1, 4))]], 3)
+    with pytest.raises(ValueError, match="1 blocks"):
+        assemble_many(d, [[np.ones((1, 9)), np.ones((1, 9))]], 3)
+    with pytest.raises(ValueError, match="reference matrix"):
+        assemble_many(d, [[Scaled(np.ones(1), np.ones((2, 2)))]], 3)
+    with pytest.raises(ValueError, match="square"):
+        Scaled(np.ones(1), np.ones((2, 3)))
 
 
 def test_assemble_csr_stiffness_like():

@@ -1,11 +1,11 @@
 """Sparse assembly and block conjugate gradients, shared by the projection
 (:mod:`toolkit.recovery`) and the solver (:mod:`toolkit.solve`).
 
-* :class:`Pattern` — the CSR sparsity of ``Σ_e R_e^T K_e R_e`` for the cells'
-  unknowns, and the plan that sums every element entry into it.  Built once
-  (two counting sorts in scipy's C code, no global sort), it assembles any
-  number of matrices on that pattern with one ``np.bincount`` each: the
-  projector assembles the mass matrix and its preconditioner from one plan.
+* :func:`assemble_many` — ``Σ_e R_e^T K_e R_e`` for several matrices on the
+  same pattern in one pass (a counting sort of the cells' slots by row, then
+  chunks of rows sorted and summed), no global sort and no entry-sized
+  temporaries: the projector assembles the mass matrix and its
+  preconditioner together; the solver assembles its stiffness matrix.
 * :func:`block_cg` — preconditioned conjugate gradients for many right-hand
   sides at once, threaded over row blocks.
 """
@@ -17,120 +17,204 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import scipy.sparse as sp
 
-__all__ = ["Pattern", "assemble_csr", "row_parts", "row_slice", "default_threads", "block_cg", "CGLayout"]
+__all__ = ["assemble_many", "Scaled", "assemble_csr", "per_cell", "row_parts", "row_slice", "default_threads", "block_cg", "CGLayout"]
 
 
 def _index_type(*sizes):
     return np.int32 if max(sizes) < 2**31 - 1 else np.int64
 
 
-class Pattern:
-    """Sparsity of an assembled matrix and the plan that fills it.
+ASSEMBLY_ROWS = 65536       # rows per assembly chunk: its temporaries stay small and are reused
+
+
+class Scaled:
+    """Element matrices in factored form ``K_e[a, b] = s[d_a] w[e] K[a, b] s[d_b]``:
+    one reference matrix K (k, k), a factor w (m,) per cell and, optionally,
+    a factor s (ndof,) per unknown (``d_a`` the cell's unknowns), so that
+    :func:`assemble_many` never stores the m*k*k values."""
+
+    def __init__(self, w, K, s=None):
+        self.w = np.ascontiguousarray(w, dtype=float).reshape(-1)
+        self.K = np.ascontiguousarray(K, dtype=float)
+        self.s = None if s is None else np.ascontiguousarray(s, dtype=float)
+        k = self.K.shape[0]
+        if self.K.shape != (k, k):
+            raise ValueError(f"Scaled: reference matrix must be square, got {self.K.shape}")
+        self.size = len(self.w) * k * k
+
+    def gather(self, ent, cell_dofs):
+        """Values of entries ``ent`` (numbered c*k*k + a*k + b) of cells
+        ``cell_dofs`` (m, k)."""
+        k = self.K.shape[0]
+        c, ab = np.divmod(ent, k * k)
+        v = self.w[c] * self.K.reshape(-1)[ab]
+        if self.s is not None:
+            a, b = np.divmod(ab, k)
+            v *= self.s[cell_dofs[c, a]] * self.s[cell_dofs[c, b]]
+        return v
+
+
+def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMBLY_ROWS):
+    """Assemble several matrices that share their pattern, ``Σ_e R_e^T K_e R_e``.
 
     Parameters
     ----------
-    cell_dofs : list of (m_j, k_j) integer arrays, the unknowns of each cell
-        of each block (rows of the element matrices, in order).
+    cell_dofs : list over blocks of (m_j, k_j) integer arrays, the unknowns
+        of each cell (rows of its element matrices, in order).
+    element_values : list over matrices of lists over blocks of element
+        matrices, each (m_j, k_j*k_j) or (m_j, k_j, k_j), or :class:`Scaled`.
     ndof : number of unknowns (rows and columns).
 
-    Element entry ``(c, a, b)`` of block ``j`` (row ``cell_dofs[j][c, a]``,
-    column ``cell_dofs[j][c, b]``) is summed into non-zero ``plan[j][c, a*k+b]``
-    of the CSR arrays ``indptr``, ``indices`` (sorted within rows).
+    Returns one CSR matrix per entry of ``element_values`` (sorted indices,
+    no duplicates; the matrices share one ``indices`` and ``indptr``).
 
-    How: a counting sort of the (cell, local node) slots by their row (a CSC
-    to CSR conversion, linear time), each slot expanded to its k entries,
-    then a per-row sort by column (scipy's ``sort_indices``) carrying the
-    entry numbers along; equal neighbours are one non-zero.
+    How: a counting sort groups the (cell, local node) slots by their row
+    (scipy's CSC to CSR conversion, linear time).  Then, chunk by chunk of
+    rows, each slot is expanded to its k entries, the entries are sorted by
+    column within their rows (scipy's ``sort_indices``, carrying the entry
+    numbers) and runs of equal columns are summed (``np.add.reduceat``) for
+    every matrix at once.  Only the chunk's temporaries are ever allocated,
+    so the memory touched is little more than the results (fresh memory is
+    slow to come by on some machines: it was the largest cost at 1M cells).
     """
+    cell_dofs = [np.asarray(d) for d in cell_dofs]
+    ndof = int(ndof)
+    nmat = len(element_values)
+    widths = np.array([d.shape[1] for d in cell_dofs], dtype=np.int64)
+    nslots = np.array([d.size for d in cell_dofs], dtype=np.int64)
+    nentries = nslots * widths
+    total = int(nentries.sum())
+    it = _index_type(total, ndof)
+    ent_off = np.r_[0, np.cumsum(nentries)]
+    values = []                                          # per matrix: entry numbers -> values
+    for j, blocks in enumerate(element_values):
+        if len(blocks) != len(cell_dofs):
+            raise ValueError(f"matrix {j}: {len(cell_dofs)} blocks of element matrices expected, got {len(blocks)}")
+        v = [K if isinstance(K, Scaled) else np.asarray(K, dtype=float).reshape(-1) for K in blocks]
+        for vb, d in zip(v, cell_dofs):
+            if isinstance(vb, Scaled) and vb.K.shape[0] != d.shape[1]:
+                raise ValueError(f"matrix {j}: reference matrix of shape ({d.shape[1]}, {d.shape[1]}) expected, "
+                                 f"got {vb.K.shape}")
+            if vb.size != d.size * d.shape[1]:
+                m, k = d.shape
+                raise ValueError(f"matrix {j}: element matrices of shape ({m}, {k}, {k}) expected, "
+                                 f"got {vb.size} values")
+        values.append(v[0] if len(v) == 1 else _gatherer(v, ent_off, cell_dofs))
+    flat_dofs = cell_dofs[0].ravel() if len(cell_dofs) == 1 else np.concatenate([d.ravel() for d in cell_dofs])
+    flat_dofs = flat_dofs.astype(it, copy=False)
+    S = sp.csc_matrix((np.ones(flat_dofs.size, dtype=np.int8), flat_dofs,
+                       np.arange(flat_dofs.size + 1, dtype=it)), shape=(ndof, flat_dofs.size))
+    by_row = S.tocsr()                                   # counting sort: slots grouped by row
+    del S
+    order, slot_ptr = by_row.indices.astype(it, copy=False), by_row.indptr
+    del by_row
+    single = len(cell_dofs) == 1
+    if not single:
+        # per slot: its entry numbers start, its cell's first slot, its width
+        slot_block = np.repeat(np.arange(len(cell_dofs)), nslots)
+        slot_off = np.r_[0, np.cumsum(nslots)]
+        local = np.arange(flat_dofs.size, dtype=np.int64) - slot_off[slot_block]
+        w_s = widths[slot_block]
+        start_s = (ent_off[slot_block] + local * w_s).astype(np.int64)
+        cell_s = (slot_off[slot_block] + (local // w_s) * w_s).astype(np.int64)
+        del slot_block, local
+    k0 = int(widths[0])
 
-    def __init__(self, cell_dofs, ndof: int):
-        cell_dofs = [np.asarray(d) for d in cell_dofs]
-        self.ndof = int(ndof)
-        self.shapes = [d.shape for d in cell_dofs]
-        widths = np.array([d.shape[1] for d in cell_dofs])
-        nslots = np.array([d.size for d in cell_dofs])
-        nentries = nslots * widths
-        total = int(nentries.sum())
-        it = _index_type(total, self.ndof)
-        slot_row = np.concatenate([d.ravel() for d in cell_dofs]).astype(it, copy=False)
-        S = sp.csc_matrix((np.ones(slot_row.size, dtype=np.int8), slot_row,
-                           np.arange(slot_row.size + 1, dtype=it)), shape=(self.ndof, slot_row.size))
-        by_row = S.tocsr()                                 # counting sort: slots grouped by row
-        del S
-        order = by_row.indices.astype(it, copy=False)      # slot numbers, row by row
-        slot_counts = np.diff(by_row.indptr)
-        del by_row, slot_row
-        if len(cell_dofs) == 1:
-            d = cell_dofs[0]
-            k = d.shape[1]
-            ids = np.empty((len(order), k), dtype=it)
-            np.add((order * it(k))[:, None], np.arange(k, dtype=it), out=ids)
-            ids = ids.reshape(-1)
-            cols = np.take(d, order // k, axis=0).ravel().astype(it, copy=False)
-            counts = slot_counts * k
+    indices = np.empty(total, dtype=it)                   # upper bounds; the unused tails are never touched
+    datas = [np.empty(total) for _ in range(nmat)]
+    indptr = np.zeros(ndof + 1, dtype=it)
+    nnz = 0
+    for r0 in range(0, ndof, chunk_rows):
+        r1 = min(r0 + chunk_rows, ndof)
+        sl = order[slot_ptr[r0]:slot_ptr[r1]]
+        if single:
+            within = np.arange(k0, dtype=it)
+            cell_first = (sl // it(k0)) * it(k0)           # the cell's first slot
+            ids = ((sl * it(k0))[:, None] + within).ravel()
+            src = (cell_first[:, None] + within).ravel()
+            row_counts = np.diff(slot_ptr[r0:r1 + 1]) * k0
         else:
-            # slot s of block j starts at entry offset_j + (s - slot_offset_j) * k_j
-            slot_off = np.r_[0, np.cumsum(nslots)]
-            ent_off = np.r_[0, np.cumsum(nentries)]
-            width = np.repeat(widths, nslots).astype(it)
-            start = np.concatenate([ent_off[j] + np.arange(nslots[j], dtype=np.int64) * widths[j]
-                                    for j in range(len(cell_dofs))]).astype(it)
-            w = width[order]
+            sl = sl.astype(np.int64)
+            w = w_s[sl]
             first = np.cumsum(w) - w
-            ids = np.repeat(start[order], w) + (np.arange(total, dtype=it) - np.repeat(first.astype(it), w))
-            cols_all = np.concatenate([np.tile(d, (1, d.shape[1])).ravel() for d in cell_dofs]).astype(it)
-            cols = cols_all[ids]
-            del cols_all, width, start, first
-            counts = np.bincount(np.repeat(np.arange(self.ndof), slot_counts), weights=w,
-                                 minlength=self.ndof).astype(it)
-        del order
-        indptr = np.zeros(self.ndof + 1, dtype=it)
-        np.cumsum(counts, out=indptr[1:])
-        T = sp.csr_matrix((ids, cols, indptr), shape=(self.ndof, self.ndof))
+            within = np.arange(int(w.sum()), dtype=np.int64) - np.repeat(first, w)
+            ids = np.repeat(start_s[sl], w) + within
+            src = np.repeat(cell_s[sl], w) + within
+            slot_rows = np.repeat(np.arange(r1 - r0), np.diff(slot_ptr[r0:r1 + 1]))
+            row_counts = np.bincount(slot_rows, weights=w, minlength=r1 - r0).astype(np.int64)
+        ptr = np.zeros(r1 - r0 + 1, dtype=np.int64)
+        np.cumsum(row_counts, out=ptr[1:])
+        T = sp.csr_matrix((np.arange(len(ids), dtype=it), flat_dofs[src], ptr.astype(it)), shape=(r1 - r0, ndof))
         T.has_sorted_indices = False
-        T.sort_indices()                                   # per row, by column, ids carried along
-        cols, ids = T.indices, T.data
-        new = np.empty(total, dtype=bool)
+        T.sort_indices()                                 # by column within rows, entry positions carried
+        cols, perm = T.indices, T.data
+        if len(cols) == 0:
+            indptr[r0 + 1:r1 + 1] = nnz
+            continue
+        new = np.empty(len(cols), dtype=bool)
         new[0] = True
         np.not_equal(cols[1:], cols[:-1], out=new[1:])
-        new[indptr[:-1][counts > 0]] = True                # every row starts a new non-zero
-        self.indices = cols[new]
-        cum = np.zeros(total + 1, dtype=it)
-        np.cumsum(new, dtype=it, out=cum[1:])
-        del new
-        self.indptr = cum[indptr]
-        pos = cum[1:]
-        pos -= 1
-        plan = np.empty(total, dtype=it)
-        plan[ids] = pos
-        self.plan = plan
-        self.offsets = np.r_[0, np.cumsum(nentries)]
-        self.nnz = len(self.indices)
-
-    def data(self, element_matrices) -> np.ndarray:
-        """Non-zero values of ``Σ_e R_e^T K_e R_e`` for element matrices
-        (one (m_j, k_j*k_j) or (m_j, k_j, k_j) array per block)."""
-        vals = [np.asarray(K, dtype=float).reshape(-1) for K in element_matrices]
-        for v, (m, k), lo, hi in zip(vals, self.shapes, self.offsets[:-1], self.offsets[1:]):
-            if v.size != hi - lo:
-                raise ValueError(f"element matrices of shape ({m}, {k}, {k}) expected, got {v.size} values")
-        w = vals[0] if len(vals) == 1 else np.concatenate(vals)
-        return np.bincount(self.plan, weights=w, minlength=self.nnz)
-
-    def matrix(self, element_matrices) -> sp.csr_matrix:
-        """The assembled CSR matrix (sorted indices, no duplicates)."""
-        A = sp.csr_matrix((self.data(element_matrices), self.indices, self.indptr), shape=(self.ndof, self.ndof))
+        new[ptr[:-1][row_counts > 0]] = True             # every row starts a new non-zero
+        starts = np.flatnonzero(new)
+        m = len(starts)
+        indices[nnz:nnz + m] = cols[starts]
+        ent = ids[perm]
+        per_row = np.diff(np.searchsorted(starts, ptr))
+        for v, out in zip(values, datas):
+            if not single:
+                vals = v(ent)
+            elif isinstance(v, Scaled):          # w[cell] K[a, :] per slot, then sorted
+                local = sl - cell_first                  # local node a of each slot
+                vals = (v.w[sl // it(k0)][:, None] * np.take(v.K, local, axis=0)).reshape(-1)[perm]
+            else:
+                vals = v[ent]
+            o = out[nnz:nnz + m]
+            np.add.reduceat(vals, starts, out=o)
+            if single and isinstance(v, Scaled) and v.s is not None:    # s[row] s[column], per non-zero
+                o *= v.s[indices[nnz:nnz + m]]
+                o *= np.repeat(v.s[r0:r1], per_row)
+        indptr[r0 + 1:r1 + 1] = nnz + np.cumsum(per_row)
+        nnz += m
+    mats = []
+    for data in datas:
+        A = sp.csr_matrix((ndof, ndof))
+        # assigned, not passed to the constructor, whose prune() would copy the views
+        A.data, A.indices, A.indptr = data[:nnz], indices[:nnz], indptr
         A.has_sorted_indices = True
-        return A
+        mats.append(A)
+    return mats
 
-    def rows(self) -> np.ndarray:
-        """Row number of every non-zero."""
-        return np.repeat(np.arange(self.ndof, dtype=self.indices.dtype), np.diff(self.indptr))
+
+def _gatherer(blocks, ent_off, cell_dofs):
+    """Function: global entry numbers -> values, for one matrix's blocks."""
+    if not any(isinstance(b, Scaled) for b in blocks):
+        flat = np.concatenate(blocks)
+        return flat.__getitem__
+
+    def gather(ent):
+        out = np.empty(len(ent))
+        which = np.searchsorted(ent_off, ent, side="right") - 1
+        for j, (b, d) in enumerate(zip(blocks, cell_dofs)):
+            sel = np.flatnonzero(which == j)
+            if len(sel):
+                local = ent[sel] - ent_off[j]
+                out[sel] = b.gather(local, d) if isinstance(b, Scaled) else b[local]
+        return out
+    return gather
 
 
 def assemble_csr(cell_dofs, element_matrices, ndof) -> sp.csr_matrix:
     """Assemble element matrices (one (m, k*k) array per block) into CSR."""
-    return Pattern(cell_dofs, ndof).matrix(element_matrices)
+    return assemble_many(cell_dofs, [element_matrices], ndof)[0]
+
+
+def per_cell(T, V) -> np.ndarray:
+    """``T @ V[c]`` for every cell: T (r, q), V (c, q, a) -> (c, r, a), as one
+    BLAS product ``V (c, q*a) @ kron(T^T, I_a)`` (faster than numpy's
+    batched matmul on many tiny matrices)."""
+    c, q, a = V.shape
+    K = np.kron(np.asarray(T, dtype=float).T, np.eye(a))
+    return (np.ascontiguousarray(V).reshape(c, q * a) @ K).reshape(c, T.shape[0], a)
 
 
 # ---------------------------------------------------------------------------

@@ -38,7 +38,7 @@ import scipy.sparse as sp
 
 from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
-from .linalg import CGLayout, Pattern, assemble_csr, block_cg, default_threads
+from .linalg import CGLayout, Scaled, assemble_csr, assemble_many, block_cg, default_threads, per_cell
 from .mesh import Mesh
 
 __all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
@@ -258,23 +258,29 @@ class L2Projector:
             matrices.append(g.dV_cq @ (N[:, :, None] * N[:, None, :]).reshape(len(N), k * k))   # (c, k*k)
             measures.append(g.dV_cq @ np.ones(len(N)))
             cell_dofs.append(self.dofs.cell_dofs[b.name])
-        pattern = Pattern(cell_dofs, ndof)
-        M = pattern.matrix(matrices)
-        del matrices
-        self.matrix = M
-        self.diagonal = M.diagonal()
+        # the diagonal first (a cheap sum over the cells), so the preconditioner can be scaled before assembly
+        diag = np.zeros(ndof)
+        for d, Me in zip(cell_dofs, matrices):
+            diag += np.bincount(d.ravel(), weights=Me[:, ::d.shape[1] + 1].ravel(), minlength=ndof)
+        self.diagonal = diag
+        values = [matrices]
+        if self.solver == "cg" and self.preconditioner == "element":
+            # cells' blocks Bu/|e| (Bu = unit_mass_inverse), rescaled s_a s_b with s = (diag P diag M)^(-1/2),
+            # assembled with C in the same pass
+            units = [unit_mass_inverse(b.element) for b in self.mesh.blocks]
+            pdiag = np.zeros(ndof)
+            for d, vol, Bu in zip(cell_dofs, measures, units):
+                pdiag += np.bincount(d.ravel(), weights=np.outer(1.0 / vol, np.diag(Bu)).ravel(), minlength=ndof)
+            s = 1.0 / np.sqrt(pdiag * diag)
+            values.append([Scaled(1.0 / vol, Bu, s) for vol, Bu in zip(measures, units)])
+        mats = assemble_many(cell_dofs, values, ndof)
+        del matrices, values
+        self.matrix = mats[0]
         if self.solver == "direct":
             from scipy.sparse.linalg import splu
-            self._factor = splu(M.tocsc())
+            self._factor = splu(self.matrix.tocsc())
         elif self.preconditioner == "element":
-            inv = [np.outer(1.0 / vol, unit_mass_inverse(b.element).ravel())
-                   for b, vol in zip(self.mesh.blocks, measures)]
-            P = pattern.matrix(inv)
-            del inv
-            s = 1.0 / np.sqrt(P.diagonal() * self.diagonal)          # rescale: diag(S P S) diag(M) = 1
-            P.data *= s[P.indices]
-            P.data *= np.repeat(s, np.diff(P.indptr))
-            self._precond = P
+            self._precond = mats[1]
         else:
             self._precond = 1.0 / self.diagonal
 
@@ -329,14 +335,13 @@ class L2Projector:
             for name, V in field.values.items():
                 et = self.mesh.block(name).element
                 E = local_field_matrix(et, field.points[name], et.nodes)     # (k, q)
-                ve = np.matmul(E, V) * self.hrz_masses(name)[:, :, None]            # (c, k, a)
+                ve = per_cell(E, V) * self.hrz_masses(name)[:, :, None]      # (c, k, a)
                 b += self._scatter[name] @ ve.reshape(-1, field.ncomponents)
             return b
         for name, V in field.values.items():
             E, N, dV = self._rhs_operator(name, field.points[name])
-            G = V if E is None else np.matmul(E, V)                   # (c, r, a)
-            W = G * dV[:, :, None]
-            be = np.matmul(N.T, W)                                    # (c, k, a)
+            G = V if E is None else per_cell(E, V)                    # (c, r, a)
+            be = per_cell(N.T, G * dV[:, :, None])                    # (c, k, a)
             b += self._scatter[name] @ be.reshape(-1, field.ncomponents)
         return b
 
@@ -418,7 +423,7 @@ def average_nodal(field: GaussField, across_regions=False) -> NodalField:
     for name, V in field.values.items():
         et = mesh.block(name).element
         E = local_field_matrix(et, field.points[name], et.nodes)     # (k, q)
-        ve = np.matmul(E, V)                                          # (c, k, a)
+        ve = per_cell(E, V)                                           # (c, k, a)
         d = dofs.cell_dofs[name].ravel()
         S = dofs.scatter(name)
         total += S @ ve.reshape(-1, field.ncomponents)
