@@ -464,6 +464,9 @@ def main(argv=None):
                     help="peak memory by resident-set rise (default where /proc/self/clear_refs works) or tracemalloc")
     ap.add_argument("--no-skfem", action="store_true", help="skip scikit-fem")
     ap.add_argument("--no-loop", action="store_true", help="skip the per-element-loop implementation")
+    ap.add_argument("--loop-sizes", default=None,
+                    help="sizes at which the element loop really runs (default: the smallest); larger sizes "
+                         "extrapolate linearly from the largest of these below them")
     ap.add_argument("--no-extra", action="store_true", help="skip the graded and shuffled cases")
     ap.add_argument("--timeout", type=float, default=3600.0, help="seconds per measurement (3600)")
     ap.add_argument("--mem-limit", type=float, default=None,
@@ -481,6 +484,7 @@ def main(argv=None):
 
     sizes = sorted({parse_size(s) for s in (args.sizes or ("10k,100k,1M" if args.full else "10k,100k")).split(",")})
     types = [t.strip() for t in args.types.split(",") if t.strip()]
+    loop_sizes = {parse_size(s) for s in args.loop_sizes.split(",")} if args.loop_sizes else {sizes[0]}
     for t in types:
         if t not in SKFEM_ELEMENT:
             raise ValueError(f"--types: {t!r} is not one of {', '.join(SKFEM_ELEMENT)} (rectangle meshes)")
@@ -511,7 +515,7 @@ def main(argv=None):
                 methods = ["average", "l2", "l2_jacobi", "reused"]
                 if not args.no_skfem:
                     methods.append("skfem")
-                if not args.no_loop and n == sizes[0]:
+                if not args.no_loop and n in loop_sizes:
                     methods.append("loop")
                 if not args.no_extra:
                     methods += ["l2_graded", "l2_shuf_auto", "l2_shuf_off"]

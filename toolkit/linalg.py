@@ -208,13 +208,26 @@ def assemble_csr(cell_dofs, element_matrices, ndof) -> sp.csr_matrix:
     return assemble_many(cell_dofs, [element_matrices], ndof)[0]
 
 
-def per_cell(T, V) -> np.ndarray:
-    """``T @ V[c]`` for every cell: T (r, q), V (c, q, a) -> (c, r, a), as one
-    BLAS product ``V (c, q*a) @ kron(T^T, I_a)`` (faster than numpy's
-    batched matmul on many tiny matrices)."""
+PER_CELL_CHUNK = 65536      # cells per chunk of per_cell's weighted products
+
+
+def per_cell(T, V, weights=None) -> np.ndarray:
+    """``T @ (w[c, :, None] * V[c])`` for every cell: T (r, q), V (c, q, a),
+    optional weights w (c, q) -> (c, r, a), as BLAS products
+    ``V (c, q*a) @ kron(T^T, I_a)`` (faster than numpy's batched matmul on
+    many tiny matrices).  With weights the cells go in chunks, so the
+    weighted copy of V is never whole."""
     c, q, a = V.shape
     K = np.kron(np.asarray(T, dtype=float).T, np.eye(a))
-    return (np.ascontiguousarray(V).reshape(c, q * a) @ K).reshape(c, T.shape[0], a)
+    if weights is None:
+        return (np.ascontiguousarray(V).reshape(c, q * a) @ K).reshape(c, T.shape[0], a)
+    out = np.empty((c, T.shape[0] * a))
+    buf = np.empty((min(c, PER_CELL_CHUNK), q, a))
+    for lo in range(0, c, PER_CELL_CHUNK):
+        hi = min(lo + PER_CELL_CHUNK, c)
+        wv = np.multiply(V[lo:hi], weights[lo:hi, :, None], out=buf[:hi - lo])
+        np.matmul(wv.reshape(hi - lo, q * a), K, out=out[lo:hi])
+    return out.reshape(c, T.shape[0], a)
 
 
 # ---------------------------------------------------------------------------
@@ -292,7 +305,7 @@ def _colsum(t, rows, c):
     return s
 
 
-def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout=None):
+def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout=None, overwrite_x0=False):
     """Preconditioned conjugate gradients for every column of ``B`` at once
     (each column keeps its own step lengths; the matrices are shared).
     Stops each column when ``||b - A x|| <= rtol ||b||``.
@@ -306,6 +319,8 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
     from the summed partial dot products, so the iterates equal the
     single-thread ones up to rounding.
 
+    ``overwrite_x0`` lets the iteration run in ``x0`` itself (saves a copy).
+
     Returns ``X (n, columns), iterations (per column), relative residuals``.
     Raises ``RuntimeError`` if a column has not converged after ``maxiter``.
     """
@@ -318,7 +333,12 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
         layout = CGLayout(A, precond if sp.issparse(precond) else np.asarray(precond, dtype=float), threads)
     L = layout.chunk_rows
 
-    X = np.zeros_like(B) if x0 is None else np.array(np.asarray(x0, dtype=float).reshape(n, c), order="C")
+    if x0 is None:
+        X = np.zeros_like(B)
+    elif overwrite_x0 and isinstance(x0, np.ndarray) and x0.dtype == float and x0.flags.c_contiguous:
+        X = x0.reshape(n, c)                             # iterate in the caller's array
+    else:
+        X = np.array(np.asarray(x0, dtype=float).reshape(n, c), order="C")
     R, Z, P, Q = (np.empty_like(B) for _ in range(4))
     Bf, Xf, Rf, Zf, Pf, Qf = (a.reshape(-1) for a in (B, X, R, Z, P, Q))
 

@@ -341,7 +341,7 @@ class L2Projector:
         for name, V in field.values.items():
             E, N, dV = self._rhs_operator(name, field.points[name])
             G = V if E is None else per_cell(E, V)                    # (c, r, a)
-            be = per_cell(N.T, G * dV[:, :, None])                    # (c, k, a)
+            be = per_cell(N.T, G, dV)                                 # (c, k, a)
             b += self._scatter[name] @ be.reshape(-1, field.ncomponents)
         return b
 
@@ -376,7 +376,7 @@ class L2Projector:
             else:
                 x0 = b / self.lumped_diagonal[:, None]        # the HRZ-lumped projection
             x, it, res = block_cg(self.matrix, b, self._precond, x0, self.rtol, self.maxiter,
-                                  layout=self._parts)
+                                  layout=self._parts, overwrite_x0=True)
             info.update(solver="cg", preconditioner=self.preconditioner, iterations=it.tolist(),
                         relative_residual=res.tolist(), rtol=self.rtol, threads=len(self._parts.threads))
         if self._new_of_old is not None:
