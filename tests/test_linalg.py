@@ -9,7 +9,7 @@ from hypothesis import given, settings, strategies as st
 
 from toolkit import L2Projector, Mesh, project_l2
 from toolkit.elements import ELEMENTS
-from toolkit.linalg import CGLayout, Scaled, assemble_csr, assemble_many, block_cg, row_slice
+from toolkit.linalg import CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, row_slice
 from toolkit.models import box_mesh, rectangle_mesh
 from toolkit.recovery import unit_mass_inverse
 from test_recovery import _field, _smooth
@@ -40,8 +40,12 @@ def test_assemble_many_matches_coo_assembly(seed, blocks, n, chunk):
     scaled = [Scaled(w, K, sv) for w, K in zip(ws, Ks)]
     explicit = [(sv[d][:, :, None] * w[:, None, None] * K[None] * sv[d][:, None, :]).reshape(len(w), -1)
                 for d, w, K in zip(dofs, ws, Ks)]
-    A, B = assemble_many(dofs, [mats, scaled], n, chunk_rows=chunk)
-    for got, vals in ((A, mats), (B, explicit)):
+    ws_q = [rng.uniform(0.1, 1.0, size=(m, 3)) for m, k in blocks]
+    Ns = [rng.normal(size=(3, k)) for _, k in blocks]
+    quad = [QuadratureSum(w, N_) for w, N_ in zip(ws_q, Ns)]
+    quad_explicit = [np.einsum("cq,qa,qb->cab", w, N_, N_).reshape(len(w), -1) for w, N_ in zip(ws_q, Ns)]
+    A, B, C = assemble_many(dofs, [mats, scaled, quad], n, chunk_rows=chunk)
+    for got, vals in ((A, mats), (B, explicit), (C, quad_explicit)):
         ref = _coo_reference(dofs, vals, n)
         assert got.has_canonical_format
         assert got.nnz == ref.nnz

@@ -17,7 +17,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import scipy.sparse as sp
 
-__all__ = ["assemble_many", "Scaled", "assemble_csr", "per_cell", "row_parts", "row_slice", "default_threads", "block_cg", "CGLayout"]
+__all__ = ["assemble_many", "Scaled", "QuadratureSum", "assemble_csr", "per_cell", "row_parts", "row_slice", "default_threads", "block_cg", "CGLayout"]
 
 
 def _index_type(*sizes):
@@ -54,6 +54,36 @@ class Scaled:
         return v
 
 
+class QuadratureSum:
+    """Element matrices as sums over integration points,
+    ``K_e[a, b] = Σ_q w[e, q] N[q, a] N[q, b]`` (a mass matrix: w = det J
+    times the rule's weights), evaluated inside :func:`assemble_many` one
+    row of a cell at a time (a small matrix product), so that the m*k*k
+    values are never stored."""
+
+    def __init__(self, w, N):
+        self.w = np.ascontiguousarray(w, dtype=float)              # (m, q)
+        self.N = np.ascontiguousarray(N, dtype=float)              # (q, k)
+        if self.w.shape[1] != self.N.shape[0]:
+            raise ValueError(f"QuadratureSum: {self.w.shape[1]} weights per cell but {self.N.shape[0]} points")
+        self.K = np.empty((self.N.shape[1],) * 2)                  # (shape only, for the checks)
+        self.size = len(self.w) * self.N.shape[1] ** 2
+
+    def rows(self, cells, local):
+        """Rows ``local`` of cells ``cells``' matrices: (len(cells), k)."""
+        return (self.w[cells] * self.N.T[local]) @ self.N
+
+    def diagonal(self) -> np.ndarray:
+        """(m, k) diagonal entries of every cell's matrix."""
+        return self.w @ (self.N * self.N)
+
+    def gather(self, ent, cell_dofs=None):
+        k = self.N.shape[1]
+        c, ab = np.divmod(ent, k * k)
+        a, b = np.divmod(ab, k)
+        return np.einsum("eq,eq,eq->e", self.w[c], self.N.T[a], self.N.T[b])
+
+
 def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMBLY_ROWS):
     """Assemble several matrices that share their pattern, ``Σ_e R_e^T K_e R_e``.
 
@@ -62,7 +92,8 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
     cell_dofs : list over blocks of (m_j, k_j) integer arrays, the unknowns
         of each cell (rows of its element matrices, in order).
     element_values : list over matrices of lists over blocks of element
-        matrices, each (m_j, k_j*k_j) or (m_j, k_j, k_j), or :class:`Scaled`.
+        matrices, each (m_j, k_j*k_j) or (m_j, k_j, k_j), or a factored form
+        (:class:`Scaled`, :class:`QuadratureSum`).
     ndof : number of unknowns (rows and columns).
 
     Returns one CSR matrix per entry of ``element_values`` (sorted indices,
@@ -90,9 +121,10 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
     for j, blocks in enumerate(element_values):
         if len(blocks) != len(cell_dofs):
             raise ValueError(f"matrix {j}: {len(cell_dofs)} blocks of element matrices expected, got {len(blocks)}")
-        v = [K if isinstance(K, Scaled) else np.asarray(K, dtype=float).reshape(-1) for K in blocks]
+        v = [K if isinstance(K, (Scaled, QuadratureSum)) else np.asarray(K, dtype=float).reshape(-1)
+             for K in blocks]
         for vb, d in zip(v, cell_dofs):
-            if isinstance(vb, Scaled) and vb.K.shape[0] != d.shape[1]:
+            if isinstance(vb, (Scaled, QuadratureSum)) and vb.K.shape[0] != d.shape[1]:
                 raise ValueError(f"matrix {j}: reference matrix of shape ({d.shape[1]}, {d.shape[1]}) expected, "
                                  f"got {vb.K.shape}")
             if vb.size != d.size * d.shape[1]:
@@ -164,8 +196,9 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
             if not single:
                 vals = v(ent)
             elif isinstance(v, Scaled):          # w[cell] K[a, :] per slot, then sorted
-                local = sl - cell_first                  # local node a of each slot
-                vals = (v.w[sl // it(k0)][:, None] * np.take(v.K, local, axis=0)).reshape(-1)[perm]
+                vals = (v.w[sl // it(k0)][:, None] * np.take(v.K, sl - cell_first, axis=0)).reshape(-1)[perm]
+            elif isinstance(v, QuadratureSum):   # row a of the cell's matrix per slot, then sorted
+                vals = v.rows(sl // it(k0), sl - cell_first).reshape(-1)[perm]
             else:
                 vals = v[ent]
             o = out[nnz:nnz + m]
@@ -187,7 +220,7 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
 
 def _gatherer(blocks, ent_off, cell_dofs):
     """Function: global entry numbers -> values, for one matrix's blocks."""
-    if not any(isinstance(b, Scaled) for b in blocks):
+    if not any(isinstance(b, (Scaled, QuadratureSum)) for b in blocks):
         flat = np.concatenate(blocks)
         return flat.__getitem__
 
@@ -198,7 +231,7 @@ def _gatherer(blocks, ent_off, cell_dofs):
             sel = np.flatnonzero(which == j)
             if len(sel):
                 local = ent[sel] - ent_off[j]
-                out[sel] = b.gather(local, d) if isinstance(b, Scaled) else b[local]
+                out[sel] = b.gather(local, d) if isinstance(b, (Scaled, QuadratureSum)) else b[local]
         return out
     return gather
 

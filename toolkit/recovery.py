@@ -38,7 +38,7 @@ import scipy.sparse as sp
 
 from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
-from .linalg import CGLayout, Scaled, assemble_csr, assemble_many, block_cg, default_threads, per_cell
+from .linalg import CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads, per_cell
 from .mesh import Mesh
 
 __all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
@@ -253,15 +253,13 @@ class L2Projector:
         cell_dofs, matrices, measures = [], [], []
         for b in self.mesh.blocks:
             g = self.mesh.geometry(b.name, "mass")
-            N = g.N_qk
-            k = N.shape[1]
-            matrices.append(g.dV_cq @ (N[:, :, None] * N[:, None, :]).reshape(len(N), k * k))   # (c, k*k)
-            measures.append(g.dV_cq @ np.ones(len(N)))
+            matrices.append(QuadratureSum(g.dV_cq, g.N_qk))           # C_e = Σ_q dV N_q N_q^T, never stored
+            measures.append(g.dV_cq @ np.ones(g.dV_cq.shape[1]))
             cell_dofs.append(self.dofs.cell_dofs[b.name])
         # the diagonal first (a cheap sum over the cells), so the preconditioner can be scaled before assembly
         diag = np.zeros(ndof)
         for d, Me in zip(cell_dofs, matrices):
-            diag += np.bincount(d.ravel(), weights=Me[:, ::d.shape[1] + 1].ravel(), minlength=ndof)
+            diag += np.bincount(d.ravel(), weights=Me.diagonal().ravel(), minlength=ndof)
         self.diagonal = diag
         values = [matrices]
         if self.solver == "cg" and self.preconditioner == "element":
