@@ -94,6 +94,11 @@ def test_block_cg_agrees_with_direct_solve(threads, chunk, kind):
     np.testing.assert_allclose(X, ref, rtol=0, atol=1e-11 * np.abs(ref).max())
     assert it[2] == 0 and np.all(X[:, 2] == 0)
     assert np.all(res <= 1e-13)
+    # iterating in the caller's arrays gives the same answer
+    Bc, X0 = B.copy(), np.zeros_like(B)
+    X2, _, _ = block_cg(A, Bc, pre, X0, rtol=1e-13, layout=lay, overwrite_x0=True, overwrite_b=True)
+    assert np.shares_memory(X2, X0)
+    np.testing.assert_allclose(X2, ref, rtol=0, atol=1e-11 * np.abs(ref).max())
     # a single vector in, a single vector out
     x1, _, _ = block_cg(A, B[:, 0], pre, rtol=1e-13, threads=threads)
     assert x1.shape == (A.shape[0],)

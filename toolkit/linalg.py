@@ -338,7 +338,8 @@ def _colsum(t, rows, c):
     return s
 
 
-def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout=None, overwrite_x0=False):
+def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout=None, overwrite_x0=False,
+             overwrite_b=False):
     """Preconditioned conjugate gradients for every column of ``B`` at once
     (each column keeps its own step lengths; the matrices are shared).
     Stops each column when ``||b - A x|| <= rtol ||b||``.
@@ -352,7 +353,9 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
     from the summed partial dot products, so the iterates equal the
     single-thread ones up to rounding.
 
-    ``overwrite_x0`` lets the iteration run in ``x0`` itself (saves a copy).
+    ``overwrite_x0`` lets the iteration run in ``x0`` itself and
+    ``overwrite_b`` keeps the residual in ``B`` (each saves an (n, columns)
+    array of fresh memory).
 
     Returns ``X (n, columns), iterations (per column), relative residuals``.
     Raises ``RuntimeError`` if a column has not converged after ``maxiter``.
@@ -372,7 +375,10 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
         X = x0.reshape(n, c)                             # iterate in the caller's array
     else:
         X = np.array(np.asarray(x0, dtype=float).reshape(n, c), order="C")
-    R, Z, P, Q = (np.empty_like(B) for _ in range(4))
+    own_b = overwrite_b and isinstance(B, np.ndarray) and B.dtype == float and B.flags.c_contiguous
+    R = B if own_b else np.empty_like(B)
+    P, Q = np.empty_like(B), np.empty_like(B)
+    Z = Q            # z = P r lives from the preconditioning to the next direction; q = A p after it
     Bf, Xf, Rf, Zf, Pf, Qf = (a.reshape(-1) for a in (B, X, R, Z, P, Q))
 
     def tiled(v):
@@ -384,12 +390,12 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
         for lo, hi, Ac, _ in chunks:
             f, rows = slice(lo * c, hi * c), hi - lo
             r, tt = Rf[f], t[:rows * c]
+            s[1] += _colsum(np.multiply(Bf[f], Bf[f], out=tt), rows, c)      # before r may overwrite b
             if x0 is None:
                 r[:] = Bf[f]
             else:
                 np.subtract(Bf[f], (Ac @ X).reshape(-1), out=r)
             s[0] += _colsum(np.multiply(r, r, out=tt), rows, c)
-            s[1] += _colsum(np.multiply(Bf[f], Bf[f], out=tt), rows, c)
         return s
 
     def precondition(chunks):

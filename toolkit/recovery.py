@@ -374,7 +374,7 @@ class L2Projector:
             else:
                 x0 = b / self.lumped_diagonal[:, None]        # the HRZ-lumped projection
             x, it, res = block_cg(self.matrix, b, self._precond, x0, self.rtol, self.maxiter,
-                                  layout=self._parts, overwrite_x0=True)
+                                  layout=self._parts, overwrite_x0=True, overwrite_b=True)
             info.update(solver="cg", preconditioner=self.preconditioner, iterations=it.tolist(),
                         relative_residual=res.tolist(), rtol=self.rtol, threads=len(self._parts.threads))
         if self._new_of_old is not None:
