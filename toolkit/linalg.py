@@ -398,32 +398,29 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
             s[0] += _colsum(np.multiply(r, r, out=tt), rows, c)
         return s
 
-    def precondition(chunks):
+    def apply_and_dot(chunks, with_precond, V, Of, Df):
+        """Of = (P or A) @ V chunk by chunk, and the column dots of Df with it."""
         s = np.zeros(c)
         t = np.empty(L * c)
-        for lo, hi, _, Pc in chunks:
+        for lo, hi, Ac, Pc in chunks:
             f, rows = slice(lo * c, hi * c), hi - lo
-            z = Zf[f]
-            if layout.diagonal:
-                np.multiply(R[lo:hi], Pc[:, None], out=Z[lo:hi])
+            o = Of[f]
+            if with_precond and layout.diagonal:
+                np.multiply(V[lo:hi], Pc[:, None], out=o.reshape(rows, c))
             else:
-                z[:] = (Pc @ R).reshape(-1)
-            s += _colsum(np.multiply(Rf[f], z, out=t[:rows * c]), rows, c)
+                o[:] = ((Pc if with_precond else Ac) @ V).reshape(-1)
+            s += _colsum(np.multiply(Df[f], o, out=t[:rows * c]), rows, c)
         return s
+
+    def precondition(chunks):                    # z = P r, and r.z
+        return apply_and_dot(chunks, True, R, Zf, Rf)
 
     def first_direction(chunks):
         for lo, hi, _, _ in chunks:
             Pf[lo * c:hi * c] = Zf[lo * c:hi * c]
 
-    def product(chunks):
-        s = np.zeros(c)
-        t = np.empty(L * c)
-        for lo, hi, Ac, _ in chunks:
-            f, rows = slice(lo * c, hi * c), hi - lo
-            q = Qf[f]
-            q[:] = (Ac @ P).reshape(-1)
-            s += _colsum(np.multiply(Pf[f], q, out=t[:rows * c]), rows, c)
-        return s
+    def product(chunks):                         # q = A p, and p.q
+        return apply_and_dot(chunks, False, P, Qf, Pf)
 
     def update(chunks, at):
         s = np.zeros(c)
