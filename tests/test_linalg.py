@@ -174,3 +174,14 @@ def test_row_slice_is_a_view_and_multiplies_like_a_copy():
         assert np.shares_memory(V.data, A.data) and np.shares_memory(V.indices, A.indices)
         np.testing.assert_array_equal(V @ X, A[lo:hi] @ X)
         np.testing.assert_array_equal(V.toarray(), A[lo:hi].toarray())
+
+
+def test_per_cell_in_chunks_matches_einsum(monkeypatch):
+    """per_cell (one BLAS product per block, weighted cells in chunks)
+    against the plain definition, with chunks far smaller than the block."""
+    import toolkit.linalg as la
+    monkeypatch.setattr(la, "PER_CELL_CHUNK", 7)
+    rng = np.random.default_rng(5)
+    T, V, w = rng.normal(size=(5, 4)), rng.normal(size=(30, 4, 3)), rng.uniform(size=(30, 4))
+    np.testing.assert_allclose(la.per_cell(T, V, w), np.einsum("rq,cq,cqa->cra", T, w, V), atol=1e-13)
+    np.testing.assert_allclose(la.per_cell(T, V), np.einsum("rq,cqa->cra", T, V), atol=1e-13)
