@@ -76,8 +76,8 @@ def test_spherical_cavity_axisymmetric():
 # ---------------------------------------------------------------------------
 # Shoulder fillet: stepped flat bar and shaft
 # Fits (Pilkey & Pilkey, Peterson's SCF 3rd ed., charts 3.1, 3.2 and 3.4; close
-# variants in Roark's Table 17.1), coefficients checked against public
-# transcriptions (see toolkit/references.py):
+# variants in Roark's Table 17.1), coefficients checked against reproductions
+# of the charts' formulas (see toolkit/references.py):
 #   Kt = C1 + C2 (2h/D) + C3 (2h/D)² + C4 (2h/D)³, h = (D - d)/2.
 # Tabulated values: Carvill, Mechanical Engineer's Data Handbook
 # (Butterworth-Heinemann 1993), "Strengths of materials", p. 21, tables

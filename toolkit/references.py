@@ -44,8 +44,8 @@ def heywood_kt_net(d_over_w: float) -> float:
 # 3.1 (flat bar, tension), 3.2 (flat bar, bending), 3.4 (shaft, tension);
 # close variants are tabulated in Roark's Formulas for Stress and Strain,
 # Table 17.1.  Written from memory, then checked coefficient by coefficient
-# against public transcriptions of the charts' formulas: all agree except the
-# h/r term of C4 for flat-bar bending (h/r <= 2), transcribed there as -0.200.
+# against reproductions of the charts' formulas: all agree except the h/r term
+# of C4 for flat-bar bending (h/r <= 2), given there as -0.200.
 # +0.188 is kept: with it the two ranges meet at h/r = 2 (within 1 %, see
 # tests/test_models.py) and it is close to Roark's +0.186, while -0.200 gives
 # Kt < 1 at 2h/D = 0.8.

@@ -193,8 +193,8 @@ static
 #   governing local codes. It is linear elastic; local yielding at the fillet, surface finish, size and
 #   environment effects on fatigue are not included, and Kf from Peterson's q is an estimate for steels.
 # - Handbook fits: W. D. Pilkey and D. F. Pilkey, Peterson's Stress Concentration Factors, 3rd ed.,
-#   Wiley 2008 (coefficients in toolkit/references.py, checked against public transcriptions; see
-#   data/SOURCES.md). The flat-bar model agrees within 4 % with the values tabulated in J. Carvill,
+#   Wiley 2008 (coefficients in toolkit/references.py, checked against reproductions of the charts'
+#   formulas; see data/SOURCES.md). The flat-bar model agrees within 4 % with the values tabulated in J. Carvill,
 #   Mechanical Engineer's Data Handbook (1993); at D/d = 2 the fit lies 3–7 % above both, and for sharp
 #   shaft fillets the model lies up to 16 % above the fit (see the test notes in tests/test_models.py).
 # - Notch sensitivity: R. E. Peterson (1959); the fit for a as quoted in Shigley's Mechanical Engineering
