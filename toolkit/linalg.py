@@ -17,7 +17,7 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import scipy.sparse as sp
 
-__all__ = ["assemble_many", "Scaled", "QuadratureSum", "assemble_csr", "per_cell", "row_parts", "row_slice", "default_threads", "block_cg", "CGLayout"]
+__all__ = ["assemble_many", "Scaled", "QuadratureSum", "assemble_csr", "sum_to_unknowns", "per_cell", "row_parts", "row_slice", "default_threads", "block_cg", "CGLayout"]
 
 
 def _index_type(*sizes):
@@ -40,6 +40,7 @@ class Scaled:
         k = self.K.shape[0]
         if self.K.shape != (k, k):
             raise ValueError(f"Scaled: reference matrix must be square, got {self.K.shape}")
+        self.k = k
         self.size = len(self.w) * k * k
 
     def gather(self, ent, cell_dofs):
@@ -52,6 +53,11 @@ class Scaled:
             a, b = np.divmod(ab, k)
             v *= self.s[cell_dofs[c, a]] * self.s[cell_dofs[c, b]]
         return v
+
+    def diagonal(self) -> np.ndarray:
+        """(m, k) diagonal entries of every cell's matrix, without the
+        per-unknown factor s."""
+        return np.outer(self.w, np.diag(self.K))
 
 
 class QuadratureSum:
@@ -66,8 +72,8 @@ class QuadratureSum:
         self.N = np.ascontiguousarray(N, dtype=float)              # (q, k)
         if self.w.shape[1] != self.N.shape[0]:
             raise ValueError(f"QuadratureSum: {self.w.shape[1]} weights per cell but {self.N.shape[0]} points")
-        self.K = np.empty((self.N.shape[1],) * 2)                  # (shape only, for the checks)
-        self.size = len(self.w) * self.N.shape[1] ** 2
+        self.k = self.N.shape[1]
+        self.size = len(self.w) * self.k ** 2
 
     def rows(self, cells, local):
         """Rows ``local`` of cells ``cells``' matrices: (len(cells), k)."""
@@ -76,6 +82,10 @@ class QuadratureSum:
     def diagonal(self) -> np.ndarray:
         """(m, k) diagonal entries of every cell's matrix."""
         return self.w @ (self.N * self.N)
+
+    def measures(self) -> np.ndarray:
+        """(m,) the sum of each cell's weights (its measure, for a mass matrix)."""
+        return self.w @ np.ones(self.w.shape[1])
 
     def gather(self, ent, cell_dofs=None):
         k = self.N.shape[1]
@@ -124,9 +134,9 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
         v = [K if isinstance(K, (Scaled, QuadratureSum)) else np.asarray(K, dtype=float).reshape(-1)
              for K in blocks]
         for vb, d in zip(v, cell_dofs):
-            if isinstance(vb, (Scaled, QuadratureSum)) and vb.K.shape[0] != d.shape[1]:
+            if isinstance(vb, (Scaled, QuadratureSum)) and vb.k != d.shape[1]:
                 raise ValueError(f"matrix {j}: reference matrix of shape ({d.shape[1]}, {d.shape[1]}) expected, "
-                                 f"got {vb.K.shape}")
+                                 f"got ({vb.k}, {vb.k})")
             if vb.size != d.size * d.shape[1]:
                 m, k = d.shape
                 raise ValueError(f"matrix {j}: element matrices of shape ({m}, {k}, {k}) expected, "
@@ -161,7 +171,8 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
         sl = order[slot_ptr[r0]:slot_ptr[r1]]
         if single:
             within = np.arange(k0, dtype=it)
-            cell_first = (sl // it(k0)) * it(k0)           # the cell's first slot
+            cell = sl // it(k0)
+            cell_first = cell * it(k0)                     # the cell's first slot
             ids = ((sl * it(k0))[:, None] + within).ravel()
             src = (cell_first[:, None] + within).ravel()
             row_counts = np.diff(slot_ptr[r0:r1 + 1]) * k0
@@ -196,9 +207,9 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
             if not single:
                 vals = v(ent)
             elif isinstance(v, Scaled):          # w[cell] K[a, :] per slot, then sorted
-                vals = (v.w[sl // it(k0)][:, None] * np.take(v.K, sl - cell_first, axis=0)).reshape(-1)[perm]
+                vals = (v.w[cell][:, None] * np.take(v.K, sl - cell_first, axis=0)).reshape(-1)[perm]
             elif isinstance(v, QuadratureSum):   # row a of the cell's matrix per slot, then sorted
-                vals = v.rows(sl // it(k0), sl - cell_first).reshape(-1)[perm]
+                vals = v.rows(cell, sl - cell_first).reshape(-1)[perm]
             else:
                 vals = v[ent]
             o = out[nnz:nnz + m]
@@ -208,14 +219,25 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
                 o *= np.repeat(v.s[r0:r1], per_row)
         indptr[r0 + 1:r1 + 1] = nnz + np.cumsum(per_row)
         nnz += m
-    mats = []
-    for data in datas:
-        A = sp.csr_matrix((ndof, ndof))
-        # assigned, not passed to the constructor, whose prune() would copy the views
-        A.data, A.indices, A.indptr = data[:nnz], indices[:nnz], indptr
-        A.has_sorted_indices = True
-        mats.append(A)
-    return mats
+    return [_csr_sharing(data[:nnz], indices[:nnz], indptr, (ndof, ndof)) for data in datas]
+
+
+def _csr_sharing(data, indices, indptr, shape, sorted_indices=True) -> sp.csr_matrix:
+    """A CSR matrix on the given arrays, not copies of them (scipy's
+    constructor prunes, and prune() copies arrays that view a larger one)."""
+    A = sp.csr_matrix(shape, dtype=data.dtype)
+    A.data, A.indices, A.indptr = data, indices, indptr
+    A.has_sorted_indices = sorted_indices
+    return A
+
+
+def sum_to_unknowns(cell_dofs, cell_values, ndof) -> np.ndarray:
+    """Sum per-cell-node values (one (m_j, k_j) array per block) into the
+    unknowns: a diagonal assembled, for instance."""
+    out = np.zeros(ndof)
+    for d, v in zip(cell_dofs, cell_values):
+        out += np.bincount(np.asarray(d).ravel(), weights=np.asarray(v, dtype=float).ravel(), minlength=ndof)
+    return out
 
 
 def _gatherer(blocks, ent_off, cell_dofs):
@@ -273,11 +295,8 @@ def row_slice(A, lo: int, hi: int) -> sp.csr_matrix:
     """Rows ``lo:hi`` of CSR matrix ``A`` as a CSR matrix that shares A's
     index and value arrays (``A[lo:hi]`` copies them)."""
     s, e = int(A.indptr[lo]), int(A.indptr[hi])
-    B = sp.csr_matrix((hi - lo, A.shape[1]), dtype=A.dtype)
-    # assigned, not passed to the constructor: its prune() copies arrays that view a larger one
-    B.data, B.indices, B.indptr = A.data[s:e], A.indices[s:e], A.indptr[lo:hi + 1] - A.indptr[lo]
-    B.has_sorted_indices = A.has_sorted_indices
-    return B
+    return _csr_sharing(A.data[s:e], A.indices[s:e], A.indptr[lo:hi + 1] - A.indptr[lo], (hi - lo, A.shape[1]),
+                        A.has_sorted_indices)
 
 
 def row_parts(A, parts: int, *others):

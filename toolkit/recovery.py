@@ -38,7 +38,8 @@ import scipy.sparse as sp
 
 from .elements import local_field_exponents, local_field_matrix, rule_of_degree
 from .fields import GaussField, NodalField
-from .linalg import CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads, per_cell
+from .linalg import (CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads,
+                     per_cell, sum_to_unknowns)
 from .mesh import Mesh
 
 __all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
@@ -250,27 +251,21 @@ class L2Projector:
         if self.lumped:
             self.diagonal = self.lumped_diagonal
             return
-        cell_dofs, matrices, measures = [], [], []
-        for b in self.mesh.blocks:
-            g = self.mesh.geometry(b.name, "mass")
-            matrices.append(QuadratureSum(g.dV_cq, g.N_qk))           # C_e = Σ_q dV N_q N_q^T, never stored
-            measures.append(g.dV_cq @ np.ones(g.dV_cq.shape[1]))
-            cell_dofs.append(self.dofs.cell_dofs[b.name])
+        matrices = [self._cell_mass(b.name) for b in self.mesh.blocks]   # C_e = Σ_q dV N_q N_q^T, never stored
+        cell_dofs = [self.dofs.cell_dofs[b.name] for b in self.mesh.blocks]
         # the diagonal first (a cheap sum over the cells), so the preconditioner can be scaled before assembly
-        diag = np.zeros(ndof)
-        for d, Me in zip(cell_dofs, matrices):
-            diag += np.bincount(d.ravel(), weights=Me.diagonal().ravel(), minlength=ndof)
+        diag = sum_to_unknowns(cell_dofs, [Me.diagonal() for Me in matrices], ndof)
         self.diagonal = diag
         values = [matrices]
         if self.solver == "cg" and self.preconditioner == "element":
             # cells' blocks Bu/|e| (Bu = unit_mass_inverse), rescaled s_a s_b with s = (diag P diag M)^(-1/2),
             # assembled with C in the same pass
-            units = [unit_mass_inverse(b.element) for b in self.mesh.blocks]
-            pdiag = np.zeros(ndof)
-            for d, vol, Bu in zip(cell_dofs, measures, units):
-                pdiag += np.bincount(d.ravel(), weights=np.outer(1.0 / vol, np.diag(Bu)).ravel(), minlength=ndof)
-            s = 1.0 / np.sqrt(pdiag * diag)
-            values.append([Scaled(1.0 / vol, Bu, s) for vol, Bu in zip(measures, units)])
+            blocks = [Scaled(1.0 / Me.measures(), unit_mass_inverse(b.element))
+                      for b, Me in zip(self.mesh.blocks, matrices)]
+            s = 1.0 / np.sqrt(sum_to_unknowns(cell_dofs, [P.diagonal() for P in blocks], ndof) * diag)
+            for P in blocks:
+                P.s = s
+            values.append(blocks)
         mats = assemble_many(cell_dofs, values, ndof)
         del matrices, values
         self.matrix = mats[0]
@@ -288,23 +283,24 @@ class L2Projector:
         Rock & Zienkiewicz 1976); every one positive."""
         hrz = self._hrz.get(name)
         if hrz is None:
-            g = self.mesh.geometry(name, "mass")
-            N = g.N_qk
-            d = g.dV_cq @ (N * N)                                     # diagonal of the cell matrices
-            vol = g.dV_cq @ np.ones(len(N))
-            hrz = d * (vol / (d @ np.ones(N.shape[1])))[:, None]
+            Me = self._cell_mass(name)
+            d = Me.diagonal()
+            hrz = d * (Me.measures() / (d @ np.ones(d.shape[1])))[:, None]
             self._hrz[name] = hrz
         return hrz
+
+    def _cell_mass(self, name) -> QuadratureSum:
+        """The cells' mass matrices of block ``name`` in factored form."""
+        g = self.mesh.geometry(name, "mass")
+        return QuadratureSum(g.dV_cq, g.N_qk)
 
     @property
     def lumped_diagonal(self) -> np.ndarray:
         """The HRZ-lumped mass matrix (ndof,)."""
         if self._lumped_diagonal is None:
-            diag = np.zeros(self.dofs.ndof)
-            for b in self.mesh.blocks:
-                diag += np.bincount(self.dofs.cell_dofs[b.name].ravel(), weights=self.hrz_masses(b.name).ravel(),
-                                    minlength=self.dofs.ndof)
-            self._lumped_diagonal = diag
+            self._lumped_diagonal = sum_to_unknowns([self.dofs.cell_dofs[b.name] for b in self.mesh.blocks],
+                                                    [self.hrz_masses(b.name) for b in self.mesh.blocks],
+                                                    self.dofs.ndof)
         return self._lumped_diagonal
 
     # -- right-hand side -----------------------------------------------------
