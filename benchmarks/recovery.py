@@ -17,6 +17,10 @@ resident set (VmHWM after resetting it through /proc/self/clear_refs, minus
 VmRSS just before the call), which counts every allocation, numpy's and the
 C libraries' (SuperLU) alike; ``--memory tracemalloc`` uses Python's
 tracemalloc instead (numpy arrays are tracked, C-library buffers are not).
+Each worker runs its call 3 times (scikit-fem and the element loop once
+above 100k elements) and keeps the best; the ``first`` column is the first
+run, which also pays for memory the process touches for the first time (on
+this VM up to 2 ms/MB, so first runs swing by up to 3x between processes).
 
 Data: a smooth analytic stress field (3 components) sampled at the full-rule
 Gauss points of ``rectangle_mesh`` cells, plus seeded element-wise noise.
@@ -459,7 +463,10 @@ def main(argv=None):
     ap.add_argument("--distort", type=float, default=0.25, help="random interior node shift, fraction of h (0.25)")
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--repeat", type=int, default=None,
-                    help="runs per measurement, best time kept (default 2 up to 100k elements, else 1)")
+                    help="runs per measurement in one process, best time kept (default 3; 1 for scikit-fem and "
+                         "the element loop above 100k elements). The first run of a process pays for memory that "
+                         "the machine touches for the first time (about 2 ms/MB on a VM that backs its memory "
+                         "lazily), so the table shows it too")
     ap.add_argument("--memory", choices=("rss", "tracemalloc"), default=None,
                     help="peak memory by resident-set rise (default where /proc/self/clear_refs works) or tracemalloc")
     ap.add_argument("--no-skfem", action="store_true", help="skip scikit-fem")
@@ -511,7 +518,6 @@ def main(argv=None):
             loop_ref = None
             for n in sizes:
                 side = side_for(n)
-                repeat = args.repeat or (2 if side * side <= 100000 else 1)
                 methods = ["average", "l2", "l2_jacobi", "reused"]
                 if not args.no_skfem:
                     methods.append("skfem")
@@ -523,8 +529,9 @@ def main(argv=None):
                 for mth in methods:
                     save = os.path.join(tmp, f"{etype}_{side}_{mth}.npy") \
                         if mth in ("l2", "l2_jacobi", "skfem", "loop", "l2_shuf_auto", "l2_shuf_off") else None
+                    slow = mth in ("skfem", "loop") and side * side > 100000
                     spec = dict(method=mth, etype=etype, side=side, seed=args.seed, distort=args.distort,
-                                repeat=repeat, memory=memory, save=save)
+                                repeat=args.repeat or (1 if slow else 3), memory=memory, save=save)
                     t0 = time.perf_counter()
                     r = run_worker(spec, args.timeout, mem_limit)
                     print(f"  [{time.perf_counter() - t_start:7.1f} s] {etype} {side * side:>9,d} {mth:<13s} "
@@ -564,7 +571,7 @@ def main(argv=None):
 
 def print_tables(rows, memory, sizes):
     mem_lbl = "peak MiB" + (" (RSS)" if memory == "rss" else " (tracemalloc)")
-    head = (f"{'type':<6} {'elements':>10}  {'method':<40} {'seconds':>9} {mem_lbl:>16} {'CG iters':>9} "
+    head = (f"{'type':<6} {'elements':>10}  {'method':<40} {'seconds':>9} {'first':>7} {mem_lbl:>16} {'CG iters':>9} "
             f"{'t/t_avg':>8} {'t_skfem/t':>9} {'diff vs l2':>10}  note")
     print("\n" + head)
     print("-" * len(head))
@@ -591,7 +598,8 @@ def print_tables(rows, memory, sizes):
                         + ("" if r.get("renumbered") is None else f", renumbered={r['renumbered']}")
                         + ("" if not r.get("threads") else f", {r['threads']} CG thread(s)")
                         + (f", {note}" if note else ""))
-            print(f"{r['etype']:<6} {r['elements']:>10,d}  {lab:<40} {s:>9.3f} {peak:>16} "
+            first = f"{r['times'][0]:.3f}" if len(r.get("times", ())) > 1 else "-"
+            print(f"{r['etype']:<6} {r['elements']:>10,d}  {lab:<40} {s:>9.3f} {first:>7} {peak:>16} "
                   f"{fmt_iters(r.get('iterations')):>9} {ratio:>8} {vs_sk:>9} {diff:>10}  {note}")
         print()
 

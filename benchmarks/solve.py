@@ -70,12 +70,12 @@ def loop_stiffness(mesh, block, rule, analysis, thickness, material):
 
 
 def vector_stiffness(mesh, block, rule, analysis, thickness, material):
-    from toolkit.linalg import assemble_csr
+    from toolkit.linalg import assemble_csr, default_threads
     Ke = element_stiffness(mesh, block, rule, analysis, thickness, {0: material})
     m, k = block.cells.shape
     d = np.empty((m, 2 * k), dtype=np.int32)
     d[:, 0::2], d[:, 1::2] = 2 * block.cells, 2 * block.cells + 1
-    return assemble_csr([d], [Ke.reshape(m, -1)], 2 * mesh.nnodes)
+    return assemble_csr([d], [Ke.reshape(m, -1)], 2 * mesh.nnodes, threads=default_threads(2 * mesh.nnodes))
 
 
 def main(argv=None):

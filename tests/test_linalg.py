@@ -25,11 +25,12 @@ def _coo_reference(cell_dofs, mats, n):
 
 @settings(max_examples=60, deadline=None)
 @given(st.integers(0, 2**31 - 1), st.lists(st.tuples(st.integers(1, 40), st.integers(1, 6)), min_size=1, max_size=3),
-       st.integers(1, 60), st.sampled_from([1, 3, 7, 1000]))
-def test_assemble_many_matches_coo_assembly(seed, blocks, n, chunk):
+       st.integers(1, 60), st.sampled_from([1, 3, 7, 1000]), st.sampled_from([1, 2, 3]))
+def test_assemble_many_matches_coo_assembly(seed, blocks, n, chunk, threads):
     """Any blocks of cells (repeated cells, unknowns in no cell, several
-    widths), any chunk size: the same matrices as COO summation, for plain
-    and factored (Scaled) element values assembled together."""
+    widths), any chunk size, any number of threads: the same matrices as
+    COO summation, for plain and factored (Scaled, QuadratureSum) element
+    values assembled together."""
     rng = np.random.default_rng(seed)
     n = max(n, max(k for _, k in blocks))
     dofs = [np.array([rng.permutation(n)[:k] for _ in range(m)]) for m, k in blocks]
@@ -44,7 +45,7 @@ def test_assemble_many_matches_coo_assembly(seed, blocks, n, chunk):
     Ns = [rng.normal(size=(3, k)) for _, k in blocks]
     quad = [QuadratureSum(w, N_) for w, N_ in zip(ws_q, Ns)]
     quad_explicit = [np.einsum("cq,qa,qb->cab", w, N_, N_).reshape(len(w), -1) for w, N_ in zip(ws_q, Ns)]
-    A, B, C = assemble_many(dofs, [mats, scaled, quad], n, chunk_rows=chunk)
+    A, B, C = assemble_many(dofs, [mats, scaled, quad], n, chunk_rows=chunk, threads=threads)
     for got, vals in ((A, mats), (B, explicit), (C, quad_explicit)):
         ref = _coo_reference(dofs, vals, n)
         assert got.has_canonical_format

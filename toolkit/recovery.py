@@ -194,8 +194,9 @@ class L2Projector:
         preconditioner saves iterations but not sparse products).
     renumber : ``"auto"`` (renumber with reverse Cuthill–McKee when the
         numbering is scattered), ``True`` or ``False``.
-    threads : threads for the conjugate-gradient loop (default: 1 below
-        50 000 unknowns, else the number of cores, at most 4).
+    threads : threads for the assembly and the conjugate-gradient loop
+        (default: 1 below 50 000 unknowns, else the number of cores, at
+        most 4).
 
     The mass matrix uses each type's mass rule, exact for N^T N det J on
     straight-edged elements (quad4 2x2, quad8/9 3x3, tri3 3, tri6 6, tet4 4,
@@ -238,8 +239,8 @@ class L2Projector:
         self._rhs_cache: dict = {}
         self._hrz: dict = {}
         self._lumped_diagonal = None
-        self._assemble()
         self.threads = int(threads) if threads else default_threads(self.dofs.ndof)
+        self._assemble()
         self.setup_time = time.perf_counter() - t0
 
     # -- assembly ------------------------------------------------------------
@@ -266,7 +267,7 @@ class L2Projector:
             for P in blocks:
                 P.s = s
             values.append(blocks)
-        mats = assemble_many(cell_dofs, values, ndof)
+        mats = assemble_many(cell_dofs, values, ndof, threads=self.threads)
         del matrices, values
         self.matrix = mats[0]
         if self.solver == "direct":

@@ -43,7 +43,7 @@ import scipy.sparse as sp
 
 from .fields import GaussField
 from .mesh import Mesh
-from .linalg import assemble_csr
+from .linalg import assemble_csr, default_threads
 
 __all__ = [
     "Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement",
@@ -812,7 +812,7 @@ def solve(model, materials=None, analysis=None, thickness=None, loads=None, supp
         d[:, 1::2] = 2 * b.cells + 1
         cdofs.append(d); mats_e.append(Ke.reshape(m, -1))
         del Ke
-    K = assemble_csr(cdofs, mats_e, 2 * n)
+    K = assemble_csr(cdofs, mats_e, 2 * n, threads=default_threads(2 * n))
     del cdofs, mats_e
     fv = f.ravel()
     rhs_full = fv - (K @ up if np.any(up) else 0.0)
