@@ -613,7 +613,7 @@ def print_tables(rows, memory, sizes):
 
     # shuffled numbering
     if any("l2_shuf_auto" in res for res in rows):
-        print("\nShuffled node numbering (random permutation): project_l2 with renumber='auto' (RCM) vs False")
+        print("\nShuffled node numbering (random permutation): project_l2 with renumber='auto' (Z-order) vs False")
     for res in rows:
         a, o, base = res.get("l2_shuf_auto", {}), res.get("l2_shuf_off", {}), res.get("l2", {})
         if "seconds" in a and "seconds" in o:

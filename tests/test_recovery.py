@@ -216,6 +216,52 @@ def test_projector_reuse_and_renumbering():
     assert L2Projector(Mesh(big.nodes[p], {"quad4": ip[big.block("quad4").cells]})).renumbered
 
 
+def test_morton_codes_follow_the_z_order():
+    """Z-order (Morton 1966): interleave the coordinates' bits, x in the
+    lowest; on a 4x4 grid the curve visits the 2x2 quadrants in Z pattern
+    and each quadrant's points in the same pattern."""
+    from toolkit.recovery import morton_codes
+    xy = np.array([(x, y) for y in range(4) for x in range(4)], dtype=float)
+    order = np.argsort(morton_codes(xy))
+    expected = [(0, 0), (1, 0), (0, 1), (1, 1), (2, 0), (3, 0), (2, 1), (3, 1),
+                (0, 2), (1, 2), (0, 3), (1, 3), (2, 2), (3, 2), (2, 3), (3, 3)]
+    assert [tuple(int(v) for v in xy[i]) for i in order] == expected
+    # 3D: the eight corners of a cube in x, then y, then z bit order
+    xyz = np.array([(x, y, z) for z in range(2) for y in range(2) for x in range(2)], dtype=float)
+    np.testing.assert_array_equal(np.argsort(morton_codes(xyz[::-1])), np.arange(8)[::-1])
+    # a flat box (zero extent in one direction) is fine
+    assert len(np.unique(morton_codes(np.c_[np.arange(5.0), np.zeros(5)]))) == 5
+
+
+@pytest.mark.parametrize("kind", ["hex8", "regions"])
+def test_renumbering_changes_nothing_but_the_speed(kind):
+    """Renumbered or not, the same projection: on a shuffled 3D mesh, and on
+    a two-region mesh whose boundary nodes carry one unknown per region."""
+    rng = np.random.default_rng(3)
+    if kind == "hex8":
+        m = box_mesh("hex8", 4, 3, 3, distort=0.2)
+        name = "hex8"
+    else:
+        m0 = rectangle_mesh("quad4", 8, 6, distort=0.2)
+        name = "quad4"
+        c = m0.block(name).cells
+        m = Mesh(m0.nodes, {name: c}, regions={name: np.where(m0.nodes[c].mean(axis=1)[:, 0] < 0.5, 1, 2)})
+    perm = rng.permutation(m.nnodes)
+    inv = np.empty_like(perm)
+    inv[perm] = np.arange(m.nnodes)
+    regions = {name: m.block(name).regions}
+    ms = Mesh(m.nodes[perm], {name: inv[m.block(name).cells]}, regions=regions)
+    f = _field(ms, _smooth)
+    a = L2Projector(ms, renumber=True, rtol=1e-13).project(f)
+    b = L2Projector(ms, renumber=False, rtol=1e-13).project(f)
+    assert a.info["renumbered"] and not b.info["renumbered"]
+    np.testing.assert_array_equal(a.node, b.node)
+    np.testing.assert_array_equal(a.region, b.region)
+    np.testing.assert_allclose(a.values, b.values, atol=1e-11)
+    if kind == "regions":
+        assert len(a.node) > ms.nnodes          # the boundary nodes have two unknowns
+
+
 def test_projector_errors_and_info():
     m = rectangle_mesh("quad4", 3, 3)
     f = _field(m, _linear)

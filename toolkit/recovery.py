@@ -113,20 +113,41 @@ class DofMap:
         return float(np.mean(spans)) / max(1.0, self.ndof ** ((d - 1) / d))
 
 
-def _rcm_permutation(dofmap: DofMap) -> np.ndarray:
-    """Reverse Cuthill–McKee order of the unknowns (scipy.sparse.csgraph),
-    from a light graph that chains the nodes of every cell."""
-    from scipy.sparse.csgraph import reverse_cuthill_mckee
+_SPREAD = {   # bit spreading for Morton codes: (shift, mask) steps, per dimension
+    2: ((16, 0x0000FFFF0000FFFF), (8, 0x00FF00FF00FF00FF), (4, 0x0F0F0F0F0F0F0F0F),
+        (2, 0x3333333333333333), (1, 0x5555555555555555)),
+    3: ((32, 0x001F00000000FFFF), (16, 0x001F0000FF0000FF), (8, 0x100F00F00F00F00F),
+        (4, 0x10C30C30C30C30C3), (2, 0x1249249249249249)),
+}
+_BITS = {2: 32, 3: 21}
 
-    rows, cols = [], []
-    for v in dofmap.cell_dofs.values():
-        rows.append(v.ravel())
-        cols.append(np.roll(v, -1, axis=1).ravel())
-    r = np.concatenate(rows)
-    c = np.concatenate(cols)
-    g = sp.csr_matrix((np.ones(2 * r.size, dtype=np.int8), (np.r_[r, c], np.r_[c, r])),
-                      shape=(dofmap.ndof, dofmap.ndof))
-    order = reverse_cuthill_mckee(g, symmetric_mode=True)   # order[new] = old
+
+def morton_codes(points: np.ndarray) -> np.ndarray:
+    """Z-order (Morton) codes of points (n, 2|3): the coordinates scaled to
+    the bounding box, quantised to 32 (2D) or 21 (3D) bits and their bits
+    interleaved, so that points close in space get close codes."""
+    X = np.asarray(points, dtype=float)
+    d = X.shape[1]
+    lo = np.array([X[:, a].min() for a in range(d)])      # column by column: faster than axis=0 on (n, 2|3)
+    hi = np.array([X[:, a].max() for a in range(d)])
+    q = ((X - lo) / np.where(hi > lo, hi - lo, 1.0) * (2.0 ** _BITS[d] - 1)).astype(np.uint64)
+    code = np.zeros(len(X), dtype=np.uint64)
+    for axis in range(d):
+        v = q[:, axis]
+        for shift, mask in _SPREAD[d]:
+            v = (v | (v << np.uint64(shift))) & np.uint64(mask)
+        code |= v << np.uint64(axis)
+    return code
+
+
+def _locality_permutation(dofmap: DofMap) -> np.ndarray:
+    """New numbers of the unknowns (``new_of_old``) in Z-order of their
+    nodes' positions.  Neighbours in space get nearby numbers, so the sparse
+    products read nearby memory.  On shuffled meshes the products ran as
+    fast as after reverse Cuthill–McKee (scipy.sparse.csgraph), but the
+    ordering costs a sort of the nodes instead of a graph search: 0.19 s
+    against 0.37 s at 1M quad4 cells, 0.6 s against 1.6 s at 1M quad8."""
+    order = np.argsort(morton_codes(dofmap.mesh.nodes[dofmap.node]))     # order[new] = old
     new_of_old = np.empty_like(order)
     new_of_old[order] = np.arange(len(order), dtype=order.dtype)
     return new_of_old
@@ -192,7 +213,7 @@ class L2Projector:
         ``"auto"`` (default: ``"element"``, except ``"jacobi"`` on meshes
         of serendipity elements (quad8, hex20), where the element
         preconditioner saves iterations but not sparse products).
-    renumber : ``"auto"`` (renumber with reverse Cuthill–McKee when the
+    renumber : ``"auto"`` (renumber in Z-order of the node positions when the
         numbering is scattered), ``True`` or ``False``.
     threads : threads for the assembly and the conjugate-gradient loop
         (default: 1 below 50 000 unknowns, else the number of cores, at
@@ -230,7 +251,7 @@ class L2Projector:
         self.locality = base.locality()
         self.renumbered = bool(renumber is True or (renumber == "auto" and not lumped and self.locality > 8.0))
         if self.renumbered:
-            self._new_of_old = _rcm_permutation(base)
+            self._new_of_old = _locality_permutation(base)
             self.dofs = base.renumbered(self._new_of_old)
         else:
             self._new_of_old = None
@@ -254,6 +275,12 @@ class L2Projector:
             return
         matrices = [self._cell_mass(b.name) for b in self.mesh.blocks]   # C_e = Σ_q dV N_q N_q^T, never stored
         cell_dofs = [self.dofs.cell_dofs[b.name] for b in self.mesh.blocks]
+        if self.renumbered:
+            # the cells too in the order of their (new) unknowns, so that the assembly's gathers stay local
+            # (at 1M shuffled quad8 cells: 2.4 -> 1.6 s)
+            orders = [np.argsort(d[:, 0]) for d in cell_dofs]
+            cell_dofs = [d[o] for d, o in zip(cell_dofs, orders)]
+            matrices = [QuadratureSum(Me.w[o], Me.N) for Me, o in zip(matrices, orders)]
         # the diagonal first (a cheap sum over the cells), so the preconditioner can be scaled before assembly
         diag = sum_to_unknowns(cell_dofs, [Me.diagonal() for Me in matrices], ndof)
         self.diagonal = diag
