@@ -470,15 +470,21 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
         return apply_and_dot(chunks, False, P, Qf, Pf)
 
     def update(chunks, at):
-        s = np.zeros(c)
+        """x += a p, r -= a q, and r.r; with a diagonal preconditioner also
+        z = d r and r.z on the same chunk while it is in cache (z takes q's
+        place, which this chunk no longer needs)."""
+        s = np.zeros((2, c))
         t = np.empty(L * c)
-        for lo, hi, _, _ in chunks:
+        for lo, hi, _, Pc in chunks:
             f, rows = slice(lo * c, hi * c), hi - lo
             tt, a = t[:rows * c], at[:rows * c]
             x, r = Xf[f], Rf[f]
             x += np.multiply(Pf[f], a, out=tt)
             r -= np.multiply(Qf[f], a, out=tt)
-            s += _colsum(np.multiply(r, r, out=tt), rows, c)
+            s[0] += _colsum(np.multiply(r, r, out=tt), rows, c)
+            if layout.diagonal:
+                z = np.multiply(R[lo:hi], Pc[:, None], out=Z[lo:hi])
+                s[1] += _colsum(np.multiply(r, z.reshape(-1), out=tt), rows, c)
         return s
 
     def direction(chunks, bt):
@@ -511,13 +517,14 @@ def block_cg(A, B, precond, x0=None, rtol=1e-10, maxiter=None, threads=1, layout
                 break
             pq = np.sum(run(product), axis=0)
             alpha = np.where(done, 0.0, rz / np.where(pq == 0, 1.0, pq))
-            rr = np.sum(run(update, tiled(alpha)), axis=0)
+            rr, rz_new = np.sum(run(update, tiled(alpha)), axis=0)
             rnorm = np.sqrt(rr)
             iters[~done] += 1
             done = done | (rnorm <= target)
             if done.all():
                 break
-            rz_new = np.sum(run(precondition), axis=0)
+            if not layout.diagonal:
+                rz_new = np.sum(run(precondition), axis=0)
             beta = np.where(done, 0.0, rz_new / np.where(rz == 0, 1.0, rz))
             rz = rz_new
             run(direction, tiled(beta))
