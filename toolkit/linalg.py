@@ -3,8 +3,8 @@
 
 * :func:`assemble_many` — ``Σ_e R_e^T K_e R_e`` for several matrices on the
   same pattern in one pass (a counting sort of the cells' slots by row, then
-  chunks of rows sorted and summed), no global sort and no entry-sized
-  temporaries: the projector assembles the mass matrix and its
+  chunks of rows sorted and summed, on several threads), no global sort and
+  no entry-sized temporaries: the projector assembles the mass matrix and its
   preconditioner together; the solver assembles its stiffness matrix.
 * :func:`block_cg` — preconditioned conjugate gradients for many right-hand
   sides at once, threaded over row blocks.
@@ -118,12 +118,15 @@ def assemble_many(cell_dofs, element_values, ndof: int, chunk_rows: int = ASSEMB
 
     How: a counting sort groups the (cell, local node) slots by their row
     (scipy's CSC to CSR conversion, linear time).  Then, chunk by chunk of
-    rows, each slot is expanded to its k entries, the entries are sorted by
-    column within their rows (scipy's ``sort_indices``, carrying the entry
-    numbers) and runs of equal columns are summed (``np.add.reduceat``) for
-    every matrix at once.  Only the chunk's temporaries are ever allocated,
-    so the memory touched is little more than the results (fresh memory is
-    slow to come by on some machines: it was the largest cost at 1M cells).
+    rows, each slot is expanded to its k entries, whose values are formed
+    in that order, and scipy's ``sum_duplicates`` sorts them by column
+    within their rows and sums equal columns, in C, one matrix after the
+    other (every matrix gets the same pattern).  With ``threads`` the chunks
+    are formed in parallel and copied into place in order.  Only the chunks'
+    temporaries are ever allocated, so the memory touched is little more
+    than the results (fresh memory is slow to come by on some machines: it
+    was the largest cost at 1M cells).  Carrying the entry numbers through
+    one sort and summing with ``np.add.reduceat`` instead was 1.6x slower.
     """
     cell_dofs = [np.asarray(d) for d in cell_dofs]
     ndof = int(ndof)
