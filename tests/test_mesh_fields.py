@@ -90,3 +90,16 @@ def test_geometry_shapes_and_physical_points():
     xe = m.nodes[m.block("quad8").cells]
     np.testing.assert_allclose(np.einsum("cki,cqkj->cqij", xe, g.dNdx_cqki), np.broadcast_to(np.eye(2), (4, 9, 2, 2)),
                                atol=1e-13)
+
+
+def test_regions_and_used_nodes_are_computed_once_and_read_only():
+    """The mesh is immutable, so its region list and used-node mask are
+    cached; the cached arrays cannot be changed by a caller."""
+    nodes = np.array([[0, 0], [1, 0], [1, 1], [0, 1], [2, 0], [5, 5]], dtype=float)
+    m = Mesh(nodes, {"quad4": [[0, 1, 2, 3]], "tri3": [[1, 4, 2]]}, regions={"quad4": [7], "tri3": [3]})
+    assert m.regions is m.regions and m.used_nodes() is m.used_nodes()
+    np.testing.assert_array_equal(m.regions, [3, 7])
+    np.testing.assert_array_equal(m.used_nodes(), [True, True, True, True, True, False])
+    for a in (m.regions, m.used_nodes()):
+        with pytest.raises(ValueError):
+            a[0] = a[1]

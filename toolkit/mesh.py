@@ -162,6 +162,7 @@ class Mesh:
         if len(np.unique(all_ids)) != len(all_ids):
             raise ValueError("cell ids are not unique across blocks")
         self._geometry_cache: dict = {}
+        self._regions = self._used = None          # computed on first use (the arrays are read-only)
         for b in self._blocks.values():
             self._check_orientation(b)
 
@@ -191,15 +192,19 @@ class Mesh:
 
     @property
     def regions(self) -> np.ndarray:
-        """Sorted distinct region ids over all blocks."""
-        return np.unique(np.concatenate([b.regions for b in self._blocks.values()]))
+        """Sorted distinct region ids over all blocks (read-only)."""
+        if self._regions is None:
+            self._regions = _readonly(np.unique(np.concatenate([b.regions for b in self._blocks.values()])))
+        return self._regions
 
     def used_nodes(self) -> np.ndarray:
-        """Boolean (n,): the node belongs to at least one cell."""
-        used = np.zeros(self.nnodes, dtype=bool)
-        for b in self._blocks.values():
-            used[b.cells.ravel()] = True
-        return used
+        """Boolean (n,): the node belongs to at least one cell (read-only)."""
+        if self._used is None:
+            used = np.zeros(self.nnodes, dtype=bool)
+            for b in self._blocks.values():
+                used[b.cells.ravel()] = True
+            self._used = _readonly(used)
+        return self._used
 
     def __repr__(self):
         blocks = ", ".join(f"{len(b)} {b.name}" for b in self._blocks.values())
