@@ -466,10 +466,8 @@ def main(argv=None):
     ap.add_argument("--distort", type=float, default=0.25, help="random interior node shift, fraction of h (0.25)")
     ap.add_argument("--seed", type=int, default=1)
     ap.add_argument("--repeat", type=int, default=None,
-                    help="runs per measurement in one process, best time kept (default 3; 1 for scikit-fem and "
-                         "the element loop above 100k elements). The first run of a process pays for memory that "
-                         "the machine touches for the first time (about 2 ms/MB on a VM that backs its memory "
-                         "lazily), so the table shows it too")
+                    help="runs per measurement in one process, best time kept, first run shown too (default 3; "
+                         "1 for scikit-fem and the element loop above 100k elements)")
     ap.add_argument("--memory", choices=("rss", "tracemalloc"), default=None,
                     help="peak memory by resident-set rise (default where /proc/self/clear_refs works) or tracemalloc")
     ap.add_argument("--no-skfem", action="store_true", help="skip scikit-fem")
