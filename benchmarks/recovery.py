@@ -100,7 +100,7 @@ def build_mesh(etype, side, distort, seed, grading=None, shuffle=False):
     then) or with its node numbering randomly permuted.  Returns
     ``(mesh, new_of_old)``; ``new_of_old`` is None unless shuffled."""
     from toolkit import Mesh
-    from toolkit.models import rectangle_mesh
+    from toolkit.fem.models import rectangle_mesh
 
     if grading:
         mesh = rectangle_mesh(etype, side, side, grading=(grading, grading))
@@ -297,7 +297,7 @@ class PeakMemory:
 # ---------------------------------------------------------------------------
 def worker(spec):
     import toolkit
-    from toolkit.recovery import DofMap
+    from toolkit.recovery.projection import DofMap
 
     method = spec["method"]
     etype, side, seed = spec["etype"], spec["side"], spec["seed"]
@@ -408,8 +408,8 @@ def recovery_fingerprint() -> str:
     (the code under test can change between runs; every measurement records
     which one it ran)."""
     import hashlib
-    import toolkit.linalg
-    import toolkit.recovery
+    import toolkit.core.linalg
+    import toolkit.recovery.projection
     h = hashlib.sha256()
     for mod in (toolkit.recovery, toolkit.linalg):
         with open(mod.__file__, "rb") as f:

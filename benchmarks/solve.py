@@ -18,8 +18,8 @@ import time
 import numpy as np
 import scipy.sparse as sp
 
-from toolkit.models import plate_with_hole, shoulder_fillet, weld_toe
-from toolkit.solve import element_stiffness, solve
+from toolkit.fem.models import plate_with_hole, shoulder_fillet, weld_toe
+from toolkit.fem.solver import element_stiffness, solve
 
 GROWTH = 1.05      # gentle grading so that the size follows the element size
 
@@ -70,7 +70,7 @@ def loop_stiffness(mesh, block, rule, analysis, thickness, material):
 
 
 def vector_stiffness(mesh, block, rule, analysis, thickness, material):
-    from toolkit.linalg import assemble_csr, default_threads
+    from toolkit.core.linalg import assemble_csr, default_threads
     Ke = element_stiffness(mesh, block, rule, analysis, thickness, {0: material})
     m, k = block.cells.shape
     d = np.empty((m, 2 * k), dtype=np.int32)

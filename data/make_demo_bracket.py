@@ -27,9 +27,9 @@ from pathlib import Path
 
 import numpy as np
 
-from toolkit.fields import GaussField
-from toolkit.io import write_results
-from toolkit.mesh import Mesh
+from toolkit.core.fields import GaussField
+from toolkit.io.neutral import write_results
+from toolkit.core.mesh import Mesh
 
 L, H, R, XC = 120.0, 40.0, 8.0, 60.0
 LUG_X = 100.0

@@ -12,7 +12,7 @@ import math
 import numpy as np
 import pytest
 
-from toolkit.checks import (CAUTION, CheckResult, SNCurve, fatigue_check, load_sn_data, miner_damage, sn_curve,
+from toolkit.assess.checks import (CAUTION, CheckResult, SNCurve, fatigue_check, load_sn_data, miner_damage, sn_curve,
                             static_check, thickness_factor)
 
 

@@ -12,7 +12,7 @@ from math import factorial
 import numpy as np
 import pytest
 
-from toolkit.elements import (ELEMENTS, SIMPLEX_RULES, gauss_legendre_rule, get_element, local_field_matrix,
+from toolkit.core.elements import (ELEMENTS, SIMPLEX_RULES, gauss_legendre_rule, get_element, local_field_matrix,
                               simplex_rule)
 
 NAMES = list(ELEMENTS)

@@ -8,7 +8,7 @@ form for polynomial distributions below.
 import numpy as np
 import pytest
 
-from toolkit.hotspot import (HOT_SPOT_RULES, hot_spot_concentration, hot_spot_stress,
+from toolkit.assess.hotspot import (HOT_SPOT_RULES, hot_spot_concentration, hot_spot_stress,
                              lagrange_extrapolation_coefficients, linearize)
 
 # Printed IIW 2016 formulas (Hobbacher, XIII-2460-13), written out independently of the module's table

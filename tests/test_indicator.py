@@ -12,10 +12,10 @@ import numpy as np
 import pytest
 
 from toolkit import GaussField, NodalField, project_l2
-from toolkit.indicator import compliance_matrix, error_indicator, indicator_rule
-from toolkit.elements import ELEMENTS
-from toolkit.models import rectangle_mesh
-from toolkit.spr import recover_spr
+from toolkit.assess.indicator import compliance_matrix, error_indicator, indicator_rule
+from toolkit.core.elements import ELEMENTS
+from toolkit.fem.models import rectangle_mesh
+from toolkit.recovery.spr import recover_spr
 
 E, NU = 210e3, 0.3
 # plane stress D on engineering strain (exx, eyy, gxy): Timoshenko & Goodier ch. 1

@@ -13,11 +13,11 @@ import pytest
 from hypothesis import HealthCheck, given, settings, strategies as st
 
 from toolkit import GaussField, project_l2
-from toolkit.elements import ELEMENTS
-from toolkit.io import (FORMAT, VTK_CELL_TYPES, read_about, read_mesh, read_results, write_nodal_csv,
+from toolkit.core.elements import ELEMENTS
+from toolkit.io.neutral import (FORMAT, VTK_CELL_TYPES, read_about, read_mesh, read_results, write_nodal_csv,
                         write_results, write_vtu)
-from toolkit.mesh import Mesh
-from toolkit.models import box_mesh, rectangle_mesh
+from toolkit.core.mesh import Mesh
+from toolkit.fem.models import box_mesh, rectangle_mesh
 
 FILES = ("nodes.csv", "elements.csv", "gauss.csv", "about.json")
 DEMO = Path(__file__).resolve().parents[1] / "data" / "demo_bracket"

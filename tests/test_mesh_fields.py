@@ -4,7 +4,7 @@ import numpy as np
 import pytest
 
 from toolkit import GaussField, Mesh, NodalField
-from toolkit.models import rectangle_mesh
+from toolkit.fem.models import rectangle_mesh
 
 SQ = np.array([[0, 0], [1, 0], [1, 1], [0, 1], [2, 0], [2, 1]], float)
 CELLS = np.array([[0, 1, 2, 3], [1, 4, 5, 2]])

@@ -1,15 +1,15 @@
 """Tests of the parametric meshers (toolkit.models) solved with toolkit.solve."""
 import numpy as np
 
-from toolkit.references import fillet_kt, heywood_kt_net
+from toolkit.assess.references import fillet_kt, heywood_kt_net
 import pytest
 
-from toolkit.elements import ELEMENTS
-from toolkit.mesh import Mesh
-from toolkit.models import plate_with_hole, shoulder_fillet, weld_toe
-from toolkit.models.common import _reflect_perm, edges_on
-from toolkit.recovery import project_l2
-from toolkit.solve import Material, Roller, Traction, edge_integral, solve
+from toolkit.core.elements import ELEMENTS
+from toolkit.core.mesh import Mesh
+from toolkit.fem.models import plate_with_hole, shoulder_fillet, weld_toe
+from toolkit.fem.models.common import _reflect_perm, edges_on
+from toolkit.recovery.projection import project_l2
+from toolkit.fem.solver import Material, Roller, Traction, edge_integral, solve
 
 
 def solved(model):
@@ -115,7 +115,7 @@ def test_flat_shoulder_fillet_kt_against_carvill_table(load, D_d, r_d, K):
 def test_fillet_fit_ranges_meet_at_h_over_r_2(shape, load):
     """The fits' two ranges (h/r <= 2 and >= 2) describe one smooth chart, so
     they must meet at h/r = 2 (a check on the coefficients as written)."""
-    from toolkit.references import _FILLET_FITS
+    from toolkit.assess.references import _FILLET_FITS
     lo, hi = _FILLET_FITS[(shape, load)]
     for x in (0.1, 0.3, 0.5, 0.7, 0.8):
         a, b = ([sum(c * t for c, t in zip(row, (1.0, np.sqrt(2.0), 2.0))) for row in rows] for rows in (lo, hi))

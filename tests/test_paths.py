@@ -15,12 +15,12 @@ import numpy as np
 import pytest
 
 from toolkit import GaussField, Mesh, NodalField
-from toolkit.elements import ELEMENTS
-from toolkit.models import box_mesh, rectangle_mesh
-from toolkit.fields import RowLayout
-from toolkit.paths import (PointLocator, arc, edge_path, line, polyline, raw_along,
+from toolkit.core.elements import ELEMENTS
+from toolkit.fem.models import box_mesh, rectangle_mesh
+from toolkit.core.fields import RowLayout
+from toolkit.assess.paths import (PointLocator, arc, edge_path, line, polyline, raw_along,
                            sample)
-from toolkit.recovery import DofMap
+from toolkit.recovery.projection import DofMap
 
 S, A = 1.0, 1.0        # remote stress, hole radius
 
@@ -213,7 +213,7 @@ def test_locator_finds_the_right_cell_on_distorted_meshes(et):
         poly = m.nodes[b.cells[:, :et_.ncorners]]
         assert all(_in_polygon(poly[c], p) for c, p in zip(loc.cell[:60], x[:60]))
     else:
-        from toolkit.mesh import inverse_map
+        from toolkit.core.mesh import inverse_map
         for i in range(0, 300, 30):                 # a few points against every cell
             xi, ok = inverse_map(et_, m.nodes[b.cells], np.broadcast_to(x[i], (len(b), 3)))
             holders = np.flatnonzero(ok & et_.contains(xi, 1e-8))

@@ -7,7 +7,7 @@ J. Fluids Eng. 130, 078001, eqs. 1-10 and Table 1.
 import numpy as np
 import pytest
 
-from toolkit.quality import grid_convergence, representative_size
+from toolkit.assess.convergence import grid_convergence, representative_size
 
 
 def test_celik_table1_first_column():

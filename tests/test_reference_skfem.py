@@ -44,8 +44,8 @@ from scipy.spatial import cKDTree
 skfem = pytest.importorskip("skfem")
 
 from toolkit import GaussField, project_l2  # noqa: E402
-from toolkit.mesh import inverse_map  # noqa: E402
-from toolkit.models import box_mesh, rectangle_mesh  # noqa: E402
+from toolkit.core.mesh import inverse_map  # noqa: E402
+from toolkit.fem.models import box_mesh, rectangle_mesh  # noqa: E402
 
 SKFEM_VERSION = tuple(int(p) for p in skfem.__version__.split(".")[:2])
 

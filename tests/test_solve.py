@@ -2,10 +2,10 @@
 import numpy as np
 import pytest
 
-from toolkit.models.common import edges_on
-from toolkit.models.grid import rectangle_mesh
-from toolkit.mesh import Mesh
-from toolkit.solve import (ANALYSES, Displacement, Fixed, Material, PointLoad, Pressure, Roller, Traction,
+from toolkit.fem.models.common import edges_on
+from toolkit.core.grid import rectangle_mesh
+from toolkit.core.mesh import Mesh
+from toolkit.fem.solver import (ANALYSES, Displacement, Fixed, Material, PointLoad, Pressure, Roller, Traction,
                            edge_integral, solve)
 
 TYPES = ("tri3", "tri6", "quad4", "quad8", "quad9")

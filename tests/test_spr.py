@@ -13,9 +13,9 @@ import numpy as np
 import pytest
 
 from toolkit import GaussField, Mesh, project_l2
-from toolkit.models import box_mesh, rectangle_mesh
-from toolkit.recovery import DofMap
-from toolkit.spr import recover_spr
+from toolkit.fem.models import box_mesh, rectangle_mesh
+from toolkit.recovery.projection import DofMap
+from toolkit.recovery.spr import recover_spr
 
 
 def _field(mesh, f, points="full"):

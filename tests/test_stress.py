@@ -8,7 +8,7 @@ Materials, ch. 7).
 import numpy as np
 import pytest
 
-from toolkit import stress as S
+from toolkit.core import stress as S
 
 PLANE, PLANE_ZZ, SOLID = S.PLANE, S.PLANE_ZZ, S.SOLID
 

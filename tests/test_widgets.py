@@ -6,8 +6,8 @@ matplotlib.use("Agg")
 import numpy as np
 
 import toolkit as tk
-from toolkit.models import rectangle_mesh
-from toolkit.widgets import path_panel
+from toolkit.fem.models import rectangle_mesh
+from toolkit.report.widgets import path_panel
 
 
 def test_panel_draws_and_every_choice_redraws(capsys, monkeypatch):

@@ -17,8 +17,8 @@ from pathlib import Path
 import nbformat
 import pytest
 
-from toolkit.checks import CheckResult
-from toolkit.workbook import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
+from toolkit.assess.checks import CheckResult
+from toolkit.workbook.runner import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
                               _html, add_commands, inputs_hash, new_workbook, parse_assignment,
                               parse_parameters, read_summary, render)
 

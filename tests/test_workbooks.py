@@ -6,8 +6,8 @@ import re
 
 import pytest
 
-from toolkit.__main__ import main
-from toolkit.references import heywood_kt_net, kirsch_kt
+from toolkit.cli import main
+from toolkit.assess.references import heywood_kt_net, kirsch_kt
 
 WORKBOOKS = ("plate_with_hole", "shoulder_fillet", "weld_toe", "from_results")
 

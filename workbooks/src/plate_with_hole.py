@@ -27,15 +27,16 @@ import numpy as np
 import matplotlib.pyplot as plt
 
 import toolkit as tk
-from toolkit import plots, report
-from toolkit.checks import static_check
-from toolkit.models import plate_with_hole
-from toolkit.references import heywood_kt_net, kirsch_kt, kirsch_ligament
-from toolkit.solve import solve
-from toolkit.stress import von_mises
-from toolkit.study import check_table, convergence_lines, convergence_study, recover_all
-from toolkit.widgets import path_panel, plot_path_comparison
-from toolkit.workbook import Summary
+from toolkit import report
+from toolkit.report import plots
+from toolkit.assess.checks import static_check
+from toolkit.fem.models import plate_with_hole
+from toolkit.assess.references import heywood_kt_net, kirsch_kt, kirsch_ligament
+from toolkit.fem.solver import solve
+from toolkit.core.stress import von_mises
+from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
+from toolkit.report.widgets import path_panel, plot_path_comparison
+from toolkit.workbook.runner import Summary
 
 # %% tags=["parameters"]
 width = 100.0            # mm, plate width W across the load; range: 0 < x <= 5000

@@ -27,15 +27,16 @@ import numpy as np
 import matplotlib.pyplot as plt
 
 import toolkit as tk
-from toolkit import plots, report
-from toolkit.checks import static_check
-from toolkit.models import shoulder_fillet
-from toolkit.references import fatigue_notch_factor, fillet_kt, peterson_q
-from toolkit.solve import solve
-from toolkit.stress import von_mises
-from toolkit.study import check_table, convergence_lines, convergence_study, recover_all
-from toolkit.widgets import path_panel, plot_path_comparison
-from toolkit.workbook import Summary
+from toolkit import report
+from toolkit.report import plots
+from toolkit.assess.checks import static_check
+from toolkit.fem.models import shoulder_fillet
+from toolkit.assess.references import fatigue_notch_factor, fillet_kt, peterson_q
+from toolkit.fem.solver import solve
+from toolkit.core.stress import von_mises
+from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
+from toolkit.report.widgets import path_panel, plot_path_comparison
+from toolkit.workbook.runner import Summary
 
 # %% tags=["parameters"]
 shape = "flat"               # one of: "flat", "shaft"

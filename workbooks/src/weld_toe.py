@@ -29,14 +29,15 @@ import numpy as np
 import matplotlib.pyplot as plt
 
 import toolkit as tk
-from toolkit import plots, report
-from toolkit.checks import SNCurve, fatigue_check, sn_curve, thickness_factor
-from toolkit.models import weld_toe
-from toolkit.solve import solve
-from toolkit.stress import max_abs_principal
-from toolkit.study import check_table, convergence_lines, convergence_study, recover_all
-from toolkit.widgets import path_panel, plot_path_comparison
-from toolkit.workbook import Summary
+from toolkit import report
+from toolkit.report import plots
+from toolkit.assess.checks import SNCurve, fatigue_check, sn_curve, thickness_factor
+from toolkit.fem.models import weld_toe
+from toolkit.fem.solver import solve
+from toolkit.core.stress import max_abs_principal
+from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
+from toolkit.report.widgets import path_panel, plot_path_comparison
+from toolkit.workbook.runner import Summary
 
 # %% tags=["parameters"]
 plate_thickness = 12.0          # mm, main plate t; range: 2 <= x <= 200

@@ -41,9 +41,9 @@ from typing import Callable
 import numpy as np
 import scipy.sparse as sp
 
-from .fields import GaussField
-from .mesh import Mesh
-from .linalg import assemble_csr, default_threads
+from toolkit.core.fields import GaussField
+from toolkit.core.mesh import Mesh
+from toolkit.core.linalg import assemble_csr, default_threads
 
 __all__ = [
     "Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement",

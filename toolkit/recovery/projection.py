@@ -36,11 +36,11 @@ import time
 import numpy as np
 import scipy.sparse as sp
 
-from .elements import local_field_exponents, local_field_matrix, rule_of_degree
-from .fields import GaussField, NodalField
-from .linalg import (CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads,
+from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
+from toolkit.core.fields import GaussField, NodalField
+from toolkit.core.linalg import (CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads,
                      per_cell, sum_to_unknowns)
-from .mesh import Mesh
+from toolkit.core.mesh import Mesh
 
 __all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
            "detj_degree", "unit_mass_inverse", "PRECONDITIONERS"]

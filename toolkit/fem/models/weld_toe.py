@@ -23,8 +23,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..solve import Displacement, Material, Roller, Traction
-from .common import Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line
+from toolkit.fem.solver import Displacement, Material, Roller, Traction
+from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line
 
 __all__ = ["weld_toe"]
 

@@ -11,7 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..mesh import Mesh
+from toolkit.core.mesh import Mesh
 
 __all__ = ["rectangle_mesh", "box_mesh"]
 
@@ -63,7 +63,7 @@ def _number(shape):
 def _recentre_midnodes(nodes, cells, etype):
     """Put every mid-side node at the middle of its (straight) edge, and
     centre nodes at the mean of their corners, after corners moved."""
-    from ..elements import ELEMENTS
+    from toolkit.core.elements import ELEMENTS
 
     et = ELEMENTS[etype]
     for e in et.edges:
@@ -141,7 +141,7 @@ def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 
     if etype.startswith("hex"):
         cells = np.stack(corners, 1)
         if etype == "hex20":
-            from ..elements import ELEMENTS
+            from toolkit.core.elements import ELEMENTS
             lat = lambda a: idx(*a)
             mids = []
             cc = np.array([(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0), (0, 0, 1), (1, 0, 1), (1, 1, 1), (0, 1, 1)])
@@ -162,7 +162,7 @@ def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 
                 t = [0, b, a, 6]
             tets.append(t)
         cells_list = []
-        from ..elements import ELEMENTS
+        from toolkit.core.elements import ELEMENTS
         for t in tets:
             c = [corners[i] for i in t]
             if etype == "tet10":

@@ -29,11 +29,11 @@ import weakref
 import numpy as np
 import scipy.sparse as sp
 
-from . import stress as _stress
-from .elements import ELEMENTS, local_field_matrix
-from .fields import GaussField, NodalField, RowLayout
-from .mesh import Mesh, inverse_map
-from .recovery import DofMap
+from toolkit.core import stress as _stress
+from toolkit.core.elements import ELEMENTS, local_field_matrix
+from toolkit.core.fields import GaussField, NodalField, RowLayout
+from toolkit.core.mesh import Mesh, inverse_map
+from toolkit.recovery.projection import DofMap
 
 __all__ = [
     "Location", "PointLocator", "path_from_spec",

@@ -79,8 +79,8 @@ def inputs_table(params: dict, units: dict | None = None, notes: dict | None = N
 def footer(params: dict) -> str:
     """Toolkit version, Python version and the inputs hash, so a checker can
     tell two runs apart."""
-    from . import __version__
-    from .workbook import inputs_hash
+    from toolkit import __version__
+    from toolkit.workbook.runner import inputs_hash
 
     return (f"Stresspath {__version__} (Python {platform.python_version_tuple()[0]}."
             f"{platform.python_version_tuple()[1]}); inputs hash {inputs_hash(params)}")

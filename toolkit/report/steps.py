@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from .quality import grid_convergence
-from .recovery import average_nodal, project_l2
-from .report import Table, headless
-from .spr import recover_spr
+from toolkit.assess.convergence import grid_convergence
+from toolkit.recovery.projection import average_nodal, project_l2
+from toolkit.report.tables import Table, headless
+from toolkit.recovery.spr import recover_spr
 
 __all__ = ["METHODS", "recover_all", "convergence_study", "convergence_lines", "check_table"]
 

@@ -15,8 +15,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..solve import Material, Roller, Traction
-from .common import Block, Model, QUAD_TYPES, arc, assemble, graded, line, uniform
+from toolkit.fem.solver import Material, Roller, Traction
+from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line, uniform
 
 __all__ = ["plate_with_hole"]
 

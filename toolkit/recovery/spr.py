@@ -47,9 +47,9 @@ import time
 
 import numpy as np
 
-from .elements import local_field_exponents, local_field_matrix
-from .fields import GaussField, NodalField
-from .recovery import DofMap
+from toolkit.core.elements import local_field_exponents, local_field_matrix
+from toolkit.core.fields import GaussField, NodalField
+from toolkit.recovery.projection import DofMap
 
 __all__ = ["recover_spr", "sampling_points", "patch_exponents"]
 

@@ -3,8 +3,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .elements import QuadratureRule
-from .mesh import Mesh
+from toolkit.core.elements import QuadratureRule
+from toolkit.core.mesh import Mesh
 
 __all__ = ["GaussField", "NodalField", "RowLayout", "STRESS_2D", "STRESS_3D"]
 

@@ -16,11 +16,12 @@ import html
 import json
 import math
 from dataclasses import dataclass, field, replace
+from importlib.resources import files
 from pathlib import Path
 
 import numpy as np
 
-from . import stress as _stress
+from toolkit.core import stress as _stress
 
 __all__ = [
     "CAUTION", "CheckResult", "SNCurve", "sn_curve", "load_sn_data", "SN_DATA_PATH",
@@ -30,7 +31,8 @@ __all__ = [
 CAUTION = ("This result supports, and does not replace, the judgment of a qualified engineer "
            "and the governing local codes.")
 
-SN_DATA_PATH = Path(__file__).resolve().parents[1] / "data" / "sn_curves.json"
+#: The S-N curve data file, shipped as package data (``data/`` in the repository, ``toolkit.data`` installed).
+SN_DATA_PATH = Path(str(files("toolkit.data").joinpath("sn_curves.json")))
 
 IIW_2016 = "IIW recommendations (Hobbacher 2016, XIII-2460-13)"
 

@@ -21,9 +21,9 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
-from ..elements import get_element
-from ..mesh import Mesh
-from .grid import rectangle_mesh
+from toolkit.core.elements import get_element
+from toolkit.core.mesh import Mesh
+from toolkit.core.grid import rectangle_mesh
 
 __all__ = ["Curve", "line", "arc", "join", "uniform", "graded", "Block", "assemble", "boundary_edges",
            "edges_on", "cell_edges_on", "Model", "QUAD_TYPES"]
@@ -386,7 +386,7 @@ class Model:
         colour, load arrows and support markers.  Returns the axes."""
         import matplotlib.pyplot as plt
         from matplotlib.collections import LineCollection
-        from ..solve import Fixed, Roller, Displacement, Traction, Pressure, PointLoad, edge_quadrature
+        from toolkit.fem.solver import Fixed, Roller, Displacement, Traction, Pressure, PointLoad, edge_quadrature
 
         if ax is None:
             _, ax = plt.subplots(figsize=(7, 5))

@@ -37,9 +37,9 @@ from pathlib import Path
 
 import numpy as np
 
-from .elements import QuadratureRule, get_element
-from .fields import GaussField, NodalField
-from .mesh import Mesh, inverse_map
+from toolkit.core.elements import QuadratureRule, get_element
+from toolkit.core.fields import GaussField, NodalField
+from toolkit.core.mesh import Mesh, inverse_map
 
 __all__ = [
     "FORMAT", "POINT_TOL", "VTK_CELL_TYPES",
@@ -541,7 +541,7 @@ def _read_mesh_folder(path: Path):
 
 
 def _known_types():
-    from .elements import ELEMENTS
+    from toolkit.core.elements import ELEMENTS
     return ELEMENTS.keys()
 
 

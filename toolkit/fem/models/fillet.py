@@ -19,8 +19,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from ..solve import Displacement, Fixed, Material, Roller, Traction
-from .common import Block, Model, QUAD_TYPES, arc, assemble, graded, line
+from toolkit.fem.solver import Displacement, Fixed, Material, Roller, Traction
+from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line
 
 __all__ = ["shoulder_fillet"]
 

@@ -45,7 +45,7 @@ Summary contract
 ----------------
 A workbook records its results in its own cells::
 
-    from toolkit.workbook import Summary, inputs_hash
+    from toolkit.workbook.runner import Summary, inputs_hash
     report = Summary(parameters=dict(width=width, holes=holes, detail=detail))
     report.value("peak stress", s_max, "MPa")
     report.check(fatigue_check(...))          # CheckResult or a plain dict
@@ -106,6 +106,7 @@ import sys
 import time
 import tokenize
 from dataclasses import dataclass
+from importlib.resources import files
 from pathlib import Path
 
 __all__ = [
@@ -115,7 +116,8 @@ __all__ = [
     "SUMMARY_METADATA_KEY", "PARAMETERS_TAG", "INJECTED_TAG",
 ]
 
-WORKBOOKS_DIR = Path(__file__).resolve().parents[1] / "workbooks"
+#: The shipped workbooks (``workbooks/`` in the repository, ``toolkit.workbooks`` installed).
+WORKBOOKS_DIR = Path(str(files("toolkit.workbooks")))
 TEMPLATE_NAME = "offline_report"
 PARAMETERS_TAG = "parameters"
 INJECTED_TAG = "injected-parameters"
@@ -755,11 +757,11 @@ def _offline_css(css):
 
 
 def _html(nb, title):
-    from importlib.resources import as_file, files
+    from importlib.resources import as_file
 
     from nbconvert import HTMLExporter
 
-    with as_file(files("toolkit") / "templates") as tdir:
+    with as_file(files("toolkit.workbook") / "templates") as tdir:
         exporter = HTMLExporter(template_name=TEMPLATE_NAME, extra_template_basedirs=[str(tdir)],
                                 embed_images=True)
         body, _ = exporter.from_notebook_node(nb, resources={"metadata": {"name": title}})
@@ -922,7 +924,7 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
         diff = sorted(set(rec) ^ set(run)) + sorted(k for k in set(rec) & set(run) if rec[k] != run[k])
         raise WorkbookError(f"{label}: Summary(parameters=...) differs from the run's parameters in "
                             f"{', '.join(diff)}; pass every parameter unchanged")
-    from . import __version__
+    from toolkit import __version__
 
     summary = {"workbook": name, "toolkit_version": __version__, "inputs_hash": inputs_hash(values),
                "parameters": _plain(values, "parameters"), "values": data["values"], "checks": data["checks"]}

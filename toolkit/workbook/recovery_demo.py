@@ -14,11 +14,11 @@ from pathlib import Path
 
 import numpy as np
 
-from .fields import GaussField
-from .io import write_nodal_csv
-from .mesh import Mesh
-from .models.grid import rectangle_mesh
-from .recovery import average_nodal, project_l2
+from toolkit.core.fields import GaussField
+from toolkit.io.neutral import write_nodal_csv
+from toolkit.core.mesh import Mesh
+from toolkit.core.grid import rectangle_mesh
+from toolkit.recovery.projection import average_nodal, project_l2
 
 __all__ = ["kirsch_stress", "quarter_annulus_mesh", "main", "run_demo"]
 
@@ -66,7 +66,7 @@ def run_demo(out="reports/recovery", quiet=False):
     import matplotlib
     matplotlib.use("Agg")
     import matplotlib.pyplot as plt
-    from .plots import contour_nodal, contour_raw
+    from toolkit.report.plots import contour_nodal, contour_raw
 
     out = Path(out)
     out.mkdir(parents=True, exist_ok=True)

@@ -10,8 +10,8 @@ from __future__ import annotations
 
 import numpy as np
 
-from .paths import raw_along, sample
-from .report import headless
+from toolkit.assess.paths import raw_along, sample
+from toolkit.report.tables import headless
 
 __all__ = ["path_panel", "plot_path_comparison"]
 

@@ -16,11 +16,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from . import stress as _stress
-from .elements import local_field_exponents, local_field_matrix, rule_of_degree
-from .fields import GaussField, NodalField
-from .paths import RowLayout
-from .recovery import detj_degree
+from toolkit.core import stress as _stress
+from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
+from toolkit.core.fields import GaussField, NodalField
+from toolkit.assess.paths import RowLayout
+from toolkit.recovery.projection import detj_degree
 
 __all__ = ["ErrorIndicator", "error_indicator", "compliance_matrix", "indicator_rule"]
 

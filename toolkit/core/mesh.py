@@ -16,7 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from .elements import ElementType, QuadratureRule, get_element
+from toolkit.core.elements import ElementType, QuadratureRule, get_element
 
 __all__ = ["CellBlock", "Mesh", "Geometry", "inverse_map"]
 

@@ -9,9 +9,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from .elements import local_field_matrix
-from .fields import GaussField, NodalField
-from .mesh import Mesh
+from toolkit.core.elements import local_field_matrix
+from toolkit.core.fields import GaussField, NodalField
+from toolkit.core.mesh import Mesh
 
 __all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "SUBTRIANGLES"]
 

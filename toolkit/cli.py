@@ -1,0 +1,264 @@
+"""Command line: ``python -m toolkit <command> ...`` (also installed as ``stresspath``).
+
+Commands
+--------
+recover RESULTS --method l2|lumped|average|spr [--across-regions] --out nodal.csv
+    Read a result folder or ``.npz`` file, recover a nodal field, write it as
+    CSV with columns ``node,region,<components>``.
+export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] --out model.vtu
+    Write the mesh, the recovered nodal field (point data) and the raw
+    integration-point values (cell data) as a VTK XML unstructured grid.
+render WORKBOOK [--set name=value ...] [--params file.json] --out DIR
+    Execute a workbook with its parameters and write the executed notebook,
+    an offline HTML report and summary.json (toolkit.workbook).
+new TEMPLATE NAME --out DIR
+    Start a workbook for a new component from one of the templates.
+demo [--out reports] [--recovery-only]
+    The recovery demo, then every workbook rendered with its defaults.
+
+On bad input every command exits with code 2 after one line
+``error: <reason>`` on stderr, and writes no output file.  Each subcommand is
+added by one ``_add_<name>`` function, so new commands are one function each.
+"""
+from __future__ import annotations
+
+import argparse
+import sys
+import time
+from pathlib import Path
+
+#: Recovery methods by their command-line name, with a one-line description (see ``_recover``).
+METHODS = {
+    "l2": "global L2 projection, consistent mass matrix (Hinton & Campbell 1974)",
+    "lumped": "L2 projection with the HRZ-lumped mass matrix (Hinton, Rock & Zienkiewicz 1976)",
+    "average": "extrapolate each element to its nodes, then average",
+    "spr": "superconvergent patch recovery (Zienkiewicz & Zhu 1992)",
+}
+
+LARGE_INPUT_BYTES = 20_000_000   # --progress auto: report stages above this input size
+
+
+def _recover(field, method: str, across_regions: bool):
+    from toolkit.recovery.projection import average_nodal, project_l2
+
+    if method == "l2":
+        return project_l2(field, across_regions=across_regions)
+    if method == "lumped":
+        return project_l2(field, lumped=True, across_regions=across_regions)
+    if method == "average":
+        return average_nodal(field, across_regions=across_regions)
+    if method == "spr":
+        from toolkit.recovery.spr import recover_spr
+        return recover_spr(field, across_regions=across_regions)
+    raise ValueError(f"unknown method {method!r}; use one of {', '.join(METHODS)}")
+
+
+# ---------------------------------------------------------------------------
+# Progress on stderr
+# ---------------------------------------------------------------------------
+class _Progress:
+    """Stage lines on stderr: ``[2/3] recover: l2, 1234 nodal rows (0.4 s)``,
+    with a tqdm bar over the stages when tqdm is installed and stderr is a
+    terminal."""
+
+    def __init__(self, enabled: bool, stages: int):
+        self.enabled = enabled
+        self.stages = stages
+        self.done = 0
+        self.bar = None
+        if enabled and sys.stderr.isatty():       # a bar only on a terminal; plain lines in logs
+            try:
+                from tqdm import tqdm
+                self.bar = tqdm(total=stages, file=sys.stderr, unit="stage", leave=False,
+                                bar_format="{desc} [{n_fmt}/{total_fmt}] {elapsed}")
+            except ImportError:
+                self.bar = None
+
+    def start(self, name: str):
+        self._t0 = time.perf_counter()
+        self._name = name
+        if self.bar is not None:
+            self.bar.set_description_str(name)
+
+    def finish(self, details: str = ""):
+        self.done += 1
+        if not self.enabled:
+            return
+        dt = time.perf_counter() - self._t0
+        line = f"[{self.done}/{self.stages}] {self._name}: {details} ({dt:.2f} s)"
+        if self.bar is not None:
+            self.bar.write(line, file=sys.stderr)
+            self.bar.update(1)
+        else:
+            print(line, file=sys.stderr, flush=True)
+
+    def close(self):
+        if self.bar is not None:
+            self.bar.close()
+
+
+def _input_size(path: Path) -> int:
+    if path.is_file():
+        return path.stat().st_size
+    if path.is_dir():
+        return sum(p.stat().st_size for p in path.iterdir() if p.is_file())
+    return 0
+
+
+def _progress(args, stages):
+    mode = args.progress
+    on = mode == "on" or (mode == "auto" and _input_size(Path(args.results)) >= LARGE_INPUT_BYTES)
+    return _Progress(on, stages)
+
+
+def _read(args, prog):
+    from toolkit.io.neutral import read_results
+
+    prog.start("read")
+    mesh, field = read_results(args.results)
+    npts = sum(v.shape[0] * v.shape[1] for v in field.values.values())
+    prog.finish(f"{mesh.nnodes} nodes, {mesh.ncells} elements, {npts} integration points, "
+                f"components {','.join(field.components)}")
+    return mesh, field
+
+
+def _recover_stage(args, field, prog):
+    prog.start("recover")
+    nodal = _recover(field, args.method, args.across_regions)
+    info = nodal.info
+    extra = ""
+    if "iterations" in info:
+        extra = f", {max(info['iterations'])} CG iterations"
+    prog.finish(f"{args.method}, {len(nodal.node)} nodal rows{extra}"
+                + (", smoothed across regions" if info.get("across_regions") else ""))
+    return nodal
+
+
+# ---------------------------------------------------------------------------
+# Commands
+# ---------------------------------------------------------------------------
+def _cmd_recover(args) -> int:
+    from toolkit.io.neutral import write_nodal_csv
+
+    prog = _progress(args, 3)
+    try:
+        mesh, field = _read(args, prog)
+        nodal = _recover_stage(args, field, prog)
+        prog.start("write")
+        write_nodal_csv(args.out, nodal)
+        prog.finish(f"{len(nodal.node)} rows to {args.out}")
+    finally:
+        prog.close()
+    return 0
+
+
+def _cmd_export_vtu(args) -> int:
+    from toolkit.io.neutral import write_vtu
+
+    prog = _progress(args, 3 if args.method != "none" else 2)
+    try:
+        mesh, field = _read(args, prog)
+        nodal = None if args.method == "none" else _recover_stage(args, field, prog)
+        prog.start("write")
+        write_vtu(args.out, mesh, nodal=nodal, field=field)
+        prog.finish(f"{mesh.ncells} cells to {args.out}")
+    finally:
+        prog.close()
+    return 0
+
+
+def _cmd_demo(args) -> int:
+    """The recovery demo (nodal CSV and a picture), then every workbook
+    rendered with its defaults into OUT/<workbook>/."""
+    from pathlib import Path
+
+    from toolkit.workbook.recovery_demo import run_demo
+    from toolkit.workbook.runner import demo as render_all
+
+    out = Path(args.out)
+    print("== recovery demo ==")
+    run_demo(out / "recovery")
+    if args.recovery_only:
+        return 0
+    print("\n== workbooks ==")
+    render_all(out, progress=False)
+    print(f"\nreports in {out}/: open <workbook>/<workbook>.html in a browser")
+    return 0
+
+
+def _common(p, methods):
+    p.add_argument("results", metavar="RESULTS", help="result folder (nodes.csv, elements.csv, gauss.csv) or .npz file")
+    p.add_argument("--method", choices=methods, default="l2",
+                   help="recovery method: " + "; ".join(f"{k}: {v}" for k, v in METHODS.items())
+                   + ("; none: no nodal field" if "none" in methods else "") + " (default l2)")
+    p.add_argument("--across-regions", action="store_true",
+                   help="smooth across region boundaries (default: one value per region at shared nodes)")
+    p.add_argument("--progress", choices=("auto", "on", "off"), default="auto",
+                   help=f"stage lines on stderr (auto: for inputs above {LARGE_INPUT_BYTES // 1_000_000} MB)")
+
+
+def _add_recover(sub):
+    p = sub.add_parser("recover", help="recover a nodal field and write it as CSV",
+                       description="Read a result folder or .npz file, recover a continuous nodal field from the "
+                                   "integration-point values, and write node,region,<components> as CSV.")
+    _common(p, list(METHODS))
+    p.add_argument("--out", required=True, help="output CSV file")
+    p.set_defaults(func=_cmd_recover)
+
+
+def _add_export_vtu(sub):
+    p = sub.add_parser("export-vtu", help="write mesh, nodal field and raw values as .vtu",
+                       description="Write the mesh, the recovered nodal field (point data) and the raw "
+                                   "integration-point values (cell data) as a VTK XML unstructured grid.")
+    _common(p, list(METHODS) + ["none"])
+    p.add_argument("--out", required=True, help="output .vtu file")
+    p.set_defaults(func=_cmd_export_vtu)
+
+
+def _add_demo(sub):
+    p = sub.add_parser("demo", help="render every workbook with its defaults (and the recovery demo)")
+    p.add_argument("--out", default="reports", help="output folder (default reports)")
+    p.add_argument("--recovery-only", action="store_true", help="only the quick recovery demo")
+    p.set_defaults(func=_cmd_demo)
+
+
+def build_parser() -> argparse.ArgumentParser:
+    parser = argparse.ArgumentParser(prog="python -m toolkit",
+                                     description="Stresspath: from integration-point stresses to continuous "
+                                                 "fields, paths, design quantities and checks.")
+    from toolkit import __version__
+    parser.add_argument("--version", action="version", version=f"stresspath {__version__}")
+    sub = parser.add_subparsers(dest="command", metavar="COMMAND")
+    for add in (_add_recover, _add_export_vtu, _add_demo):
+        add(sub)
+    from toolkit.workbook.runner import add_commands as _add_workbook_commands
+    _add_workbook_commands(sub)
+    return parser
+
+
+def _one_line(e: BaseException) -> str:
+    return " ".join(str(e).split()) or type(e).__name__
+
+
+def main(argv=None) -> int:
+    """Run the command line; returns the exit code (0 success, 2 bad input)."""
+    parser = build_parser()
+    try:
+        args = parser.parse_args(argv)
+    except SystemExit as e:               # argparse: --help, --version, usage errors
+        return e.code if isinstance(e.code, int) else (0 if e.code is None else 2)
+    if getattr(args, "func", None) is None:
+        parser.print_help(sys.stderr)
+        return 2
+    try:
+        return int(args.func(args) or 0)
+    except (ValueError, OSError, RuntimeError) as e:
+        print(f"error: {_one_line(e)}", file=sys.stderr)
+        return 2
+    except KeyboardInterrupt:
+        print("error: interrupted", file=sys.stderr)
+        return 130
+
+
+if __name__ == "__main__":
+    sys.exit(main())

@@ -1,0 +1,11 @@
+"""Layer 2: from integration-point values to a continuous nodal field.
+
+Global L2 projection (consistent and HRZ-lumped), nodal averaging and
+superconvergent patch recovery behind one call shape, ``method(field) ->
+NodalField``, and one registry of them (:data:`METHODS`)."""
+from toolkit.recovery.projection import (L2Projector, PRECONDITIONERS, average_nodal, detj_degree, project_l2,
+                                         rhs_rule, unit_mass_inverse)
+from toolkit.recovery.spr import recover_spr
+
+__all__ = ["L2Projector", "project_l2", "average_nodal", "recover_spr", "rhs_rule", "detj_degree",
+           "unit_mass_inverse", "PRECONDITIONERS"]

@@ -1,0 +1,1 @@
+"""Package data: the report notebooks and their sources (shipped as toolkit.workbooks)."""
