@@ -3,6 +3,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.core.arrays import readonly
 from toolkit.core.elements import QuadratureRule
 from toolkit.core.mesh import Mesh
 
@@ -10,12 +11,6 @@ __all__ = ["GaussField", "NodalField", "RowLayout", "STRESS_2D", "STRESS_3D"]
 
 STRESS_2D = ("sxx", "syy", "sxy")
 STRESS_3D = ("sxx", "syy", "szz", "sxy", "syz", "sxz")
-
-
-def _readonly(a):
-    a = np.ascontiguousarray(a)
-    a.setflags(write=False)
-    return a
 
 
 class GaussField:
@@ -67,8 +62,8 @@ class GaussField:
                 c, q, a = (int(i[0]) for i in np.nonzero(bad))
                 raise ValueError(f"{b.label(c)}: value of {components[a]} at point {q} is {v[c, q, a]} "
                                  f"({int(bad.sum())} non-finite values in the block)")
-            self.values[b.name] = _readonly(v)
-            self.points[b.name] = _readonly(pts)
+            self.values[b.name] = readonly(v)
+            self.points[b.name] = readonly(pts)
             self.rule_labels[b.name] = label
 
     @staticmethod
@@ -179,10 +174,10 @@ class NodalField:
 
     def __init__(self, mesh: Mesh, values, components, node, region, method="", info=None):
         self.mesh = mesh
-        self.values = _readonly(np.asarray(values, dtype=float))
+        self.values = readonly(np.asarray(values, dtype=float))
         self.components = tuple(components)
-        self.node = _readonly(np.asarray(node, dtype=np.int64))
-        self.region = _readonly(np.asarray(region, dtype=np.int64))
+        self.node = readonly(np.asarray(node, dtype=np.int64))
+        self.region = readonly(np.asarray(region, dtype=np.int64))
         self.method = method
         self.info = dict(info or {})
         r = len(self.node)

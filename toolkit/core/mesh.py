@@ -16,15 +16,10 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from toolkit.core.arrays import readonly
 from toolkit.core.elements import ElementType, QuadratureRule, get_element
 
 __all__ = ["CellBlock", "Mesh", "Geometry", "inverse_map"]
-
-
-def _readonly(a):
-    a = np.ascontiguousarray(a)
-    a.setflags(write=False)
-    return a
 
 
 @dataclass(frozen=True, eq=False)
@@ -101,7 +96,7 @@ class Mesh:
             raise ValueError(f"node row {int(np.flatnonzero(bad)[0])} has a non-finite coordinate "
                              f"({bad.sum()} such nodes)")
         n, dim = nodes.shape
-        self.nodes = _readonly(nodes)
+        self.nodes = readonly(nodes)
         if node_ids is None:
             node_ids = np.arange(n)
         node_ids = np.asarray(node_ids)
@@ -109,7 +104,7 @@ class Mesh:
             raise ValueError(f"node_ids must be {n} integers, got shape {node_ids.shape} of {node_ids.dtype}")
         if len(np.unique(node_ids)) != n:
             raise ValueError("node_ids are not unique")
-        self.node_ids = _readonly(node_ids.astype(np.int64))
+        self.node_ids = readonly(node_ids.astype(np.int64))
         if not isinstance(blocks, dict) or not blocks:
             raise ValueError("blocks must be a non-empty dict {element type: cells}")
         regions = regions or {}
@@ -156,8 +151,8 @@ class Mesh:
             if ids.shape != (m,) or not np.issubdtype(ids.dtype, np.integer):
                 raise ValueError(f"block {et.name}: cell_ids must be {m} integers, got shape {ids.shape}")
             start += m
-            self._blocks[et.name] = CellBlock(et, _readonly(conn), _readonly(reg.astype(np.int64)),
-                                              _readonly(ids.astype(np.int64)))
+            self._blocks[et.name] = CellBlock(et, readonly(conn), readonly(reg.astype(np.int64)),
+                                              readonly(ids.astype(np.int64)))
         all_ids = np.concatenate([b.ids for b in self._blocks.values()])
         if len(np.unique(all_ids)) != len(all_ids):
             raise ValueError("cell ids are not unique across blocks")
@@ -194,7 +189,7 @@ class Mesh:
     def regions(self) -> np.ndarray:
         """Sorted distinct region ids over all blocks (read-only)."""
         if self._regions is None:
-            self._regions = _readonly(np.unique(np.concatenate([b.regions for b in self._blocks.values()])))
+            self._regions = readonly(np.unique(np.concatenate([b.regions for b in self._blocks.values()])))
         return self._regions
 
     def used_nodes(self) -> np.ndarray:
@@ -203,7 +198,7 @@ class Mesh:
             used = np.zeros(self.nnodes, dtype=bool)
             for b in self._blocks.values():
                 used[b.cells.ravel()] = True
-            self._used = _readonly(used)
+            self._used = readonly(used)
         return self._used
 
     def __repr__(self):

@@ -41,6 +41,7 @@ from typing import Callable
 import numpy as np
 import scipy.sparse as sp
 
+from toolkit.core.arrays import chunk_slices
 from toolkit.core.fields import GaussField
 from toolkit.core.mesh import Mesh
 from toolkit.core.linalg import assemble_csr, default_threads
@@ -621,11 +622,6 @@ def _b_matrix(dNdx, N, r, analysis):
     return B.reshape(c, q, ne, 2 * k)
 
 
-def _chunks(m, per_cell, budget=4_000_000):
-    step = max(1, budget // max(per_cell, 1))
-    return [slice(i, min(m, i + step)) for i in range(0, m, step)]
-
-
 def _block_setup(mesh, b, rule, analysis, thickness, materials):
     g = mesh.geometry(b.name, rule, gradients=True)
     x = g.x_cqi
@@ -645,7 +641,7 @@ def element_stiffness(mesh, b, rule, analysis, thickness, materials):
     m, q, k, _ = g.dNdx_cqki.shape
     ne = Dtab.shape[1]
     Ke = np.empty((m, 2 * k, 2 * k))
-    for sl in _chunks(m, q * ne * 2 * k * 3):
+    for sl in chunk_slices(m, q * ne * 2 * k * 3):
         B = _b_matrix(g.dNdx_cqki[sl], g.N_qk, g.x_cqi[sl, :, 0], analysis)      # (c, q, I, a)
         DB = np.matmul(Dtab[Didx[sl]][:, None], B)                                 # D_IJ B_Ja
         DB *= dV[sl, :, None, None]
@@ -660,7 +656,7 @@ def _recover(mesh, b, rule, analysis, thickness, materials, u):
     ne = Dtab.shape[1]
     ue = u[b.cells].reshape(m, 2 * k)
     eps = np.empty((m, q, ne))
-    for sl in _chunks(m, q * ne * 2 * k * 2):
+    for sl in chunk_slices(m, q * ne * 2 * k * 2):
         B = _b_matrix(g.dNdx_cqki[sl], g.N_qk, g.x_cqi[sl, :, 0], analysis)
         eps[sl] = np.einsum("cqIa,ca->cqI", B, ue[sl], optimize=True)
     sig = np.einsum("cIJ,cqJ->cqI", Dtab[Didx], eps, optimize=True)

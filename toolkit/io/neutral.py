@@ -37,6 +37,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.core.arrays import chunk_slices
 from toolkit.core.elements import QuadratureRule, get_element
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh, inverse_map
@@ -689,11 +690,6 @@ def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
 # ---------------------------------------------------------------------------
 # Matching points by position
 # ---------------------------------------------------------------------------
-def _chunks(C, q):
-    step = max(1, 2_000_000 // max(1, q * q))
-    return range(0, C, step), step
-
-
 def _assign(match_fn, C, q, tol):
     """Nearest reference point for every given point, cell by cell.
 
@@ -705,9 +701,8 @@ def _assign(match_fn, C, q, tol):
     """
     assign = np.empty((C, q), dtype=np.intp)
     nomatch = np.zeros((C, q), dtype=bool)
-    starts, step = _chunks(C, q)
-    for s in starts:
-        e = min(C, s + step)
+    for sl in chunk_slices(C, q * q, budget=2_000_000):
+        s, e = sl.start, sl.stop
         a, dist = match_fn(s, e)
         assign[s:e] = a
         nomatch[s:e] = dist > tol

@@ -109,6 +109,8 @@ from dataclasses import dataclass
 from importlib.resources import files
 from pathlib import Path
 
+from toolkit.errors import ParameterError, WorkbookError, WorkbookExecutionError
+
 __all__ = [
     "Summary", "inputs_hash", "workbook_dir", "render", "RenderResult", "new_workbook", "demo",
     "add_commands", "parse_parameters", "parse_assignment", "workbook_parameters", "Parameter", "ParameterError", "WorkbookError",
@@ -128,22 +130,6 @@ WIDGET_VIEW_MIME = "application/vnd.jupyter.widget-view+json"
 WORKBOOK_DIR_ENV = "STRESSPATH_WORKBOOK_DIR"
 HEADLESS_ENV = "STRESSPATH_HEADLESS"   # same name as toolkit.report.HEADLESS_ENV (kept import-free)
 KERNELSPEC = {"display_name": "Python 3 (ipykernel)", "language": "python", "name": "python3"}
-
-
-class WorkbookError(ValueError):
-    """A workbook cannot be rendered as it stands (file, cells, summary)."""
-
-
-class ParameterError(WorkbookError):
-    """A parameter value (or the parameters cell itself) is wrong."""
-
-
-class WorkbookExecutionError(RuntimeError):
-    """A cell failed while executing; ``notebook`` is the executed notebook written."""
-
-    def __init__(self, message, notebook=None):
-        super().__init__(message)
-        self.notebook = notebook
 
 
 # ---------------------------------------------------------------------------
