@@ -297,7 +297,7 @@ class PeakMemory:
 # ---------------------------------------------------------------------------
 def worker(spec):
     import toolkit
-    from toolkit.recovery.projection import DofMap
+    from toolkit.core.numbering import DofMap
 
     method = spec["method"]
     etype, side, seed = spec["etype"], spec["side"], spec["seed"]

@@ -20,7 +20,7 @@ from toolkit.fem.models import box_mesh, rectangle_mesh
 from toolkit.core.fields import RowLayout
 from toolkit.assess.paths import (PointLocator, arc, edge_path, line, polyline, raw_along,
                            sample)
-from toolkit.recovery.projection import DofMap
+from toolkit.core.numbering import DofMap
 
 S, A = 1.0, 1.0        # remote stress, hole radius
 

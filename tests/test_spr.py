@@ -14,7 +14,7 @@ import pytest
 
 from toolkit import GaussField, Mesh, project_l2
 from toolkit.fem.models import box_mesh, rectangle_mesh
-from toolkit.recovery.projection import DofMap
+from toolkit.core.numbering import DofMap
 from toolkit.recovery.spr import recover_spr
 
 

@@ -20,7 +20,6 @@ from toolkit.core import stress as _stress
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.assess.paths import RowLayout
-from toolkit.recovery.projection import detj_degree
 
 __all__ = ["ErrorIndicator", "error_indicator", "compliance_matrix", "indicator_rule"]
 
@@ -67,7 +66,7 @@ def indicator_rule(element, npoints):
     (per coordinate on quads and hexes, total on simplices)."""
     _, gdeg = local_field_exponents(element.shape, npoints)
     ndeg = element.total_degree if element.is_simplex else element.degree
-    return rule_of_degree(element.shape, 2 * max(ndeg, gdeg) + detj_degree(element))
+    return rule_of_degree(element.shape, 2 * max(ndeg, gdeg) + element.detj_degree)
 
 
 class ErrorIndicator:

@@ -33,7 +33,7 @@ from toolkit.core import stress as _stress
 from toolkit.core.elements import ELEMENTS, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField, RowLayout
 from toolkit.core.mesh import Mesh, inverse_map
-from toolkit.recovery.projection import DofMap
+from toolkit.core.numbering import DofMap
 
 __all__ = [
     "Location", "PointLocator", "path_from_spec",

@@ -294,6 +294,12 @@ class ElementType:
     def is_simplex(self) -> bool:
         return self.shape in ("tri", "tet")
 
+    @property
+    def detj_degree(self) -> int:
+        """Degree of det J on straight-edged, flat-faced cells: per coordinate
+        for quads (1) and hexes (2), total for simplices (0, constant)."""
+        return {"quad": 1, "hex": 2}.get(self.shape, 0)
+
     @cached_property
     def _coeffs(self) -> np.ndarray:
         P, _ = _monomials(self.nodes, self.exponents)

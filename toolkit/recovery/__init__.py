@@ -3,9 +3,9 @@
 Global L2 projection (consistent and HRZ-lumped), nodal averaging and
 superconvergent patch recovery behind one call shape, ``method(field) ->
 NodalField``, and one registry of them (:data:`METHODS`)."""
-from toolkit.recovery.projection import (L2Projector, PRECONDITIONERS, average_nodal, detj_degree, project_l2,
+from toolkit.recovery.projection import (L2Projector, PRECONDITIONERS, average_nodal, morton_codes, project_l2,
                                          rhs_rule, unit_mass_inverse)
 from toolkit.recovery.spr import recover_spr
 
-__all__ = ["L2Projector", "project_l2", "average_nodal", "recover_spr", "rhs_rule", "detj_degree",
+__all__ = ["L2Projector", "project_l2", "average_nodal", "recover_spr", "rhs_rule", "morton_codes",
            "unit_mass_inverse", "PRECONDITIONERS"]

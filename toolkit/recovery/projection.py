@@ -41,76 +41,12 @@ from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.linalg import (CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads,
                      per_cell, sum_to_unknowns)
 from toolkit.core.mesh import Mesh
+from toolkit.core.numbering import DofMap
 
-__all__ = ["L2Projector", "project_l2", "average_nodal", "DofMap", "rhs_rule", "block_cg", "assemble_csr",
-           "detj_degree", "unit_mass_inverse", "PRECONDITIONERS"]
+__all__ = ["L2Projector", "project_l2", "average_nodal", "rhs_rule", "unit_mass_inverse", "morton_codes",
+           "PRECONDITIONERS"]
 
 PRECONDITIONERS = ("auto", "element", "jacobi")
-
-
-# ---------------------------------------------------------------------------
-# Degrees of freedom: one per (node, region) pair, or one per node
-# ---------------------------------------------------------------------------
-class DofMap:
-    """Numbering of the unknowns of a nodal field.
-
-    ``cell_dofs[block]`` (m, k) are the unknowns of each cell; ``node`` and
-    ``region`` (ndof,) say which node and region each unknown belongs to
-    (region ``-1`` when smoothed across regions).  Unknowns are numbered in
-    (node, region) order; nodes in no cell get none.
-    """
-
-    def __init__(self, mesh: Mesh, across_regions: bool = False):
-        self.mesh = mesh
-        regions = mesh.regions
-        self.across_regions = bool(across_regions) or len(regions) == 1
-        n = mesh.nnodes
-        if self.across_regions:
-            used = mesh.used_nodes()
-            if used.all():
-                self.cell_dofs = {b.name: b.cells for b in mesh.blocks}
-                self.node = np.arange(n)
-            else:
-                number = np.cumsum(used) - 1
-                self.cell_dofs = {b.name: number[b.cells].astype(b.cells.dtype) for b in mesh.blocks}
-                self.node = np.flatnonzero(used)
-            self.region = np.full(len(self.node), -1 if len(regions) > 1 else int(regions[0]))
-        else:
-            R = len(regions)
-            table = np.zeros(n * R, dtype=bool)
-            keys = {}
-            for b in mesh.blocks:
-                ridx = np.searchsorted(regions, b.regions)
-                keys[b.name] = b.cells.astype(np.int64) * R + ridx[:, None]
-                table[keys[b.name].ravel()] = True
-            number = np.cumsum(table) - 1
-            self.cell_dofs = {k: number[v].astype(np.int32 if table.sum() < 2**31 else np.int64)
-                              for k, v in keys.items()}
-            flat = np.flatnonzero(table)
-            self.node = flat // R
-            self.region = regions[flat % R]
-        self.ndof = len(self.node)
-
-    def renumbered(self, perm_new_of_old: np.ndarray) -> "DofMap":
-        """A copy whose cell dofs use new numbers ``perm_new_of_old[old]``."""
-        other = object.__new__(DofMap)
-        other.__dict__.update(self.__dict__)
-        other.cell_dofs = {k: perm_new_of_old[v].astype(v.dtype) for k, v in self.cell_dofs.items()}
-        return other
-
-    def scatter(self, name: str) -> sp.csc_matrix:
-        """Sparse (ndof, m*k) matrix that adds per-cell-node rows into unknowns.
-        Built in CSC form, which costs nothing: column j has its one entry at
-        row ``cell_dofs.ravel()[j]``."""
-        d = self.cell_dofs[name].ravel()
-        return sp.csc_matrix((np.ones(d.size), d, np.arange(d.size + 1)), shape=(self.ndof, d.size))
-
-    def locality(self) -> float:
-        """Mean spread (max - min unknown number) per cell, relative to the
-        spread a well-ordered mesh of this size has (about ndof^((d-1)/d))."""
-        spans = [np.mean(np.ptp(v[:: max(1, len(v) // 20000)], axis=1)) for v in self.cell_dofs.values()]  # a sample
-        d = self.mesh.dim
-        return float(np.mean(spans)) / max(1.0, self.ndof ** ((d - 1) / d))
 
 
 _SPREAD = {   # bit spreading for Morton codes: (shift, mask) steps, per dimension
@@ -156,18 +92,12 @@ def _locality_permutation(dofmap: DofMap) -> np.ndarray:
 # ---------------------------------------------------------------------------
 # Rules
 # ---------------------------------------------------------------------------
-def detj_degree(element) -> int:
-    """Degree of det J for straight-edged, flat-faced elements: per coordinate
-    for quad (1) and hex (2), total for simplices (0)."""
-    return {"quad": 1, "hex": 2}.get(element.shape, 0)
-
-
 def rhs_rule(element, npoints: int):
     """Rule exact for ``∫ N^T G dΩ`` on straight-edged elements, with G the
     local field through ``npoints`` values."""
     _, gdeg = local_field_exponents(element.shape, npoints)
     ndeg = element.total_degree if element.is_simplex else element.degree
-    return rule_of_degree(element.shape, ndeg + gdeg + detj_degree(element))
+    return rule_of_degree(element.shape, ndeg + gdeg + element.detj_degree)
 
 
 def unit_mass_inverse(element) -> np.ndarray:

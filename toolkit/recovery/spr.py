@@ -49,7 +49,7 @@ import numpy as np
 
 from toolkit.core.elements import local_field_exponents, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
-from toolkit.recovery.projection import DofMap
+from toolkit.core.numbering import DofMap
 
 __all__ = ["recover_spr", "sampling_points", "patch_exponents"]
 
