@@ -72,7 +72,7 @@ class GaussField:
         if isinstance(spec, (str, int, np.integer, QuadratureRule)):
             r = et.rule(spec)
             return r.points, r.name
-        pts = et._check_points(spec)
+        pts = et.check_points(spec)
         inside = et.contains(pts, tol=1e-6)
         if not inside.all():
             raise ValueError(f"block {b.name}: integration point {int(np.flatnonzero(~inside)[0])} lies outside "

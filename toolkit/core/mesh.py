@@ -213,7 +213,7 @@ class Mesh:
         b = self.block(name)
         et = b.element
         if isinstance(rule, np.ndarray):
-            pts, w = et._check_points(rule), None
+            pts, w = et.check_points(rule), None
         else:
             r = et.rule(rule)
             pts, w = r.points, r.weights
