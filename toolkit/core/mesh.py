@@ -85,6 +85,24 @@ class Mesh:
     node_ids : (n,) ints, optional (default 0..n-1)
     cell_ids : dict ``{type name: (m,) ints}``, optional (default: running
         numbers over the blocks in the given order)
+
+    Examples
+    --------
+    Two 2 x 1 quad4 cells side by side (corners counter-clockwise):
+
+    >>> mesh = Mesh([[0, 0], [2, 0], [2, 1], [0, 1], [4, 0], [4, 1]],
+    ...             {"quad4": [[0, 1, 2, 3], [1, 4, 5, 2]]})
+    >>> mesh
+    Mesh(6 nodes, 2 quad4, 1 region(s), 2D)
+    >>> mesh.volumes().tolist()
+    [2.0, 2.0]
+
+    A cell whose corners run clockwise is refused before any work is done:
+
+    >>> Mesh([[0, 0], [0, 1], [1, 1], [1, 0]], {"quad4": [[0, 1, 2, 3]]})
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.InputError: block quad4, cell 0 (element 0): inverted element, det J = -0.25 at a full-rule point ...
     """
 
     def __init__(self, nodes, blocks, regions=None, node_ids=None, cell_ids=None):
