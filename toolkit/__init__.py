@@ -31,3 +31,7 @@ __all__ += ["read_results", "write_results", "write_vtu"]
 from toolkit.fem.solver import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402 (module toolkit.solve stays reachable)
 
 __all__ += ["Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]
+
+from toolkit import compat as _compat  # noqa: E402  (version 0.1 module names, with a FutureWarning)
+
+_compat.install()
