@@ -12,7 +12,7 @@ import pytest
 
 from toolkit import average_nodal, project_l2
 from toolkit.cli import build_parser, main
-from toolkit.io.neutral import read_results
+from toolkit.io import read_results
 from toolkit.recovery.spr import recover_spr
 
 DEMO = Path(__file__).resolve().parents[1] / "data" / "demo_bracket"
@@ -52,7 +52,7 @@ def test_recover_writes_the_projected_field(tmp_path, demo, capsys, method, acro
 
 
 def test_recover_reads_npz(tmp_path, demo):
-    from toolkit.io.neutral import write_results
+    from toolkit.io import write_results
     mesh, field = demo
     write_results(tmp_path / "d.npz", mesh, field)
     assert main(["recover", str(tmp_path / "d.npz"), "--out", str(tmp_path / "n.csv")]) == 0

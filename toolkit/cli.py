@@ -112,7 +112,7 @@ def _progress(args, stages):
 
 
 def _read(args, prog):
-    from toolkit.io.neutral import read_results
+    from toolkit.io import read_results
 
     prog.start("read")
     mesh, field = read_results(args.results)
@@ -138,7 +138,7 @@ def _recover_stage(args, field, prog):
 # Commands
 # ---------------------------------------------------------------------------
 def _cmd_recover(args) -> int:
-    from toolkit.io.neutral import write_nodal_csv
+    from toolkit.io import write_nodal_csv
 
     prog = _progress(args, 3)
     try:
@@ -153,7 +153,7 @@ def _cmd_recover(args) -> int:
 
 
 def _cmd_export_vtu(args) -> int:
-    from toolkit.io.neutral import write_vtu
+    from toolkit.io import write_vtu
 
     prog = _progress(args, 3 if args.method != "none" else 2)
     try:
