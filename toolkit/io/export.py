@@ -9,6 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.core.elements import ELEMENTS
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
 from toolkit.io.files import temp_beside
@@ -17,14 +18,10 @@ from toolkit.io.table import float_cells, int_cells, write_csv
 
 __all__ = ["VTK_CELL_TYPES", "write_nodal_csv", "write_vtu"]
 
-#: Our element type names -> meshio (VTK) cell type names.  Our node order is
-#: the VTK order for every type, so no permutation is needed.
-VTK_CELL_TYPES = {
-    "tri3": "triangle", "tri6": "triangle6",
-    "quad4": "quad", "quad8": "quad8", "quad9": "quad9",
-    "tet4": "tetra", "tet10": "tetra10",
-    "hex8": "hexahedron", "hex20": "hexahedron20",
-}
+#: Our element type names -> meshio (VTK) cell type names, read off each
+#: type's declaration (``ElementType.vtk_cell_type``).  Our node order is the
+#: VTK order for every type, so no permutation is needed.
+VTK_CELL_TYPES = {name: et.vtk_cell_type for name, et in ELEMENTS.items()}
 
 
 def write_nodal_csv(path, nodal: NodalField):
@@ -59,7 +56,7 @@ def write_vtu(path, mesh: Mesh, nodal: NodalField | None = None, field: GaussFie
     blocks with fewer points).
 
     Cells use the VTK node order, which is ours for every type (see
-    :data:`VTK_CELL_TYPES`).
+    :attr:`ElementType.vtk_cell_type`).
     """
     import meshio
 
@@ -87,7 +84,7 @@ def write_vtu(path, mesh: Mesh, nodal: NodalField | None = None, field: GaussFie
     cell_data = {"element_id": [b.ids for b in mesh.blocks], "region": [b.regions for b in mesh.blocks]}
     if field is not None:
         cell_data.update(_point_cell_data(mesh, field))
-    m = meshio.Mesh(pts, [(VTK_CELL_TYPES[b.name], cells[b.name]) for b in mesh.blocks],
+    m = meshio.Mesh(pts, [(b.element.vtk_cell_type, cells[b.name]) for b in mesh.blocks],
                     point_data=point_data, cell_data=cell_data)
     path = Path(path)
     fd, tmp = temp_beside(path, ".vtu")
