@@ -386,7 +386,9 @@ class Model:
         colour, load arrows and support markers.  Returns the axes."""
         import matplotlib.pyplot as plt
         from matplotlib.collections import LineCollection
-        from toolkit.fem.solver import Fixed, Roller, Displacement, Traction, Pressure, PointLoad, edge_quadrature
+        from toolkit.fem.edges import edge_quadrature
+        from toolkit.fem.loads import PointLoad, Pressure, Traction
+        from toolkit.fem.supports import Displacement, Fixed, Roller
 
         if ax is None:
             _, ax = plt.subplots(figsize=(7, 5))

@@ -19,7 +19,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.fem.solver import Displacement, Fixed, Material, Roller, Traction
+from toolkit.fem.loads import Traction
+from toolkit.fem.material import Material
+from toolkit.fem.supports import Displacement, Fixed, Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line
 
 __all__ = ["shoulder_fillet"]

@@ -23,7 +23,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.fem.solver import Displacement, Material, Roller, Traction
+from toolkit.fem.loads import Traction
+from toolkit.fem.material import Material
+from toolkit.fem.supports import Displacement, Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line
 
 __all__ = ["weld_toe"]
