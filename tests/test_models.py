@@ -1,4 +1,4 @@
-"""Tests of the parametric meshers (toolkit.models) solved with toolkit.solve."""
+"""Tests of the parametric meshers (toolkit.fem.models) solved with toolkit.fem.solver."""
 import numpy as np
 
 from toolkit.assess.references import fillet_kt, heywood_kt_net

@@ -1,4 +1,4 @@
-"""Tests of the 2D linear-elastic solver (toolkit.solve)."""
+"""Tests of the 2D linear-elastic solver (toolkit.fem)."""
 import numpy as np
 import pytest
 

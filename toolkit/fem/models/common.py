@@ -1,7 +1,7 @@
 """Building blocks of the parametric meshers.
 
 A model is assembled from mapped blocks: each block is the unit square meshed
-by :func:`toolkit.models.grid.rectangle_mesh` (which owns the connectivity of
+by :func:`toolkit.core.grid.rectangle_mesh` (which owns the connectivity of
 every element type), its lattice coordinates re-spaced along each direction by
 given element-boundary distributions (mid-side nodes at the parametric middle
 of their element), then mapped to the plane by the transfinite (Coons)
@@ -346,7 +346,7 @@ def edges_on(mesh: Mesh, nodes, boundary=None) -> np.ndarray:
 # ---------------------------------------------------------------------------
 @dataclass(eq=False)
 class Model:
-    """A meshed model ready for :func:`toolkit.solve.solve`.
+    """A meshed model ready for :func:`toolkit.fem.solver.solve`.
 
     Attributes
     ----------
