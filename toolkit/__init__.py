@@ -28,7 +28,7 @@ from toolkit.io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
 
-from toolkit.fem.solver import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402 (module toolkit.solve stays reachable)
+from toolkit.fem import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402
 
 __all__ += ["Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]
 

@@ -15,7 +15,9 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.fem.solver import Material, Roller, Traction
+from toolkit.fem.loads import Traction
+from toolkit.fem.material import Material
+from toolkit.fem.supports import Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line, uniform
 
 __all__ = ["plate_with_hole"]
