@@ -18,8 +18,7 @@ import numpy as np
 
 from toolkit.core import stress as _stress
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
-from toolkit.core.fields import GaussField, NodalField
-from toolkit.assess.paths import RowLayout
+from toolkit.core.fields import GaussField, NodalField, RowLayout
 
 __all__ = ["ErrorIndicator", "error_indicator", "compliance_matrix", "indicator_rule"]
 

@@ -1,4 +1,5 @@
-"""Figures: mesh, raw (discontinuous) and smoothed contour plots.
+"""Figures: mesh, raw (discontinuous) and smoothed contour plots, fields
+along paths.
 
 matplotlib is imported inside each function, so importing the toolkit does
 not need a display or a backend.  Colour maps are matplotlib's perceptually
@@ -13,7 +14,7 @@ from toolkit.core.elements import local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
 
-__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "SUBTRIANGLES"]
+__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "SUBTRIANGLES"]
 
 # Local sub-triangles used to draw each 2D element type (node indices).
 SUBTRIANGLES = {
@@ -149,3 +150,32 @@ def raw_vs_smoothed(field: GaussField, nodal: NodalField, component, figsize=(11
     contour_nodal(nodal, component, axes[1], levels, vmin=lo, vmax=hi,
                   title=f"{component}, smoothed ({nodal.method})")
     return fig
+
+
+def plot_path(result, ax=None, quantity="von_mises", label=None, **kwargs):
+    """Plot ``quantity`` (a name or a list of names) of a
+    :class:`~toolkit.assess.sampling.PathResult` against distance; raw curves
+    (``result.pieces``) are drawn element by element so their jumps show.
+    Returns the axes."""
+    import matplotlib.pyplot as plt
+
+    if ax is None:
+        _, ax = plt.subplots()
+    names = [quantity] if isinstance(quantity, str) else list(quantity)
+    for q in names:
+        y = result[q]
+        lab = label if (label is not None and len(names) == 1) else (f"{q} ({result.method})" if result.method else q)
+        if result.pieces:
+            line = None
+            for pc in result.pieces:
+                kw = dict(kwargs)
+                if line is not None:
+                    kw.setdefault("color", line.get_color())
+                (ln,) = ax.plot(result.distances[pc], y[pc], label=lab if line is None else "_nolegend_", **kw)
+                line = line or ln
+        else:
+            ax.plot(result.distances, y, label=lab, **kwargs)
+    ax.set_xlabel(f"distance along {result.label}")
+    ax.set_ylabel(names[0] if len(names) == 1 else "value")
+    ax.legend()
+    return ax
