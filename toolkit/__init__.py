@@ -17,7 +17,9 @@ __all__ = ["ELEMENTS", "ElementType", "QuadratureRule", "get_element", "Mesh", "
            "hot_spot_stress", "linearize", "hot_spot_concentration", "SNCurve", "sn_curve", "thickness_factor",
            "miner_damage", "fatigue_check", "static_check", "CheckResult", "grid_convergence"]
 
-from toolkit.assess.paths import PointLocator, sample, raw_along, line, polyline, arc, edge_path
+from toolkit.core.locate import PointLocator
+from toolkit.assess.sampling import sample, raw_along
+from toolkit.assess.paths import line, polyline, arc, edge_path
 from toolkit.recovery.spr import recover_spr
 from toolkit.assess.indicator import error_indicator
 

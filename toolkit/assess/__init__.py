@@ -8,7 +8,8 @@ from toolkit.assess.checks import (CAUTION, CheckResult, SNCurve, fatigue_check,
 from toolkit.assess.convergence import ConvergenceResult, grid_convergence, representative_size
 from toolkit.assess.hotspot import HOT_SPOT_RULES, hot_spot_concentration, hot_spot_stress, linearize
 from toolkit.assess.indicator import error_indicator
-from toolkit.assess.paths import (PathResult, arc, edge_path, line, path_from_spec, polyline, raw_along, sample)
+from toolkit.assess.paths import arc, edge_path, line, path_from_spec, polyline
+from toolkit.assess.sampling import PathResult, raw_along, sample
 
 __all__ = ["CAUTION", "CheckResult", "SNCurve", "fatigue_check", "load_sn_data", "miner_damage", "sn_curve",
            "static_check", "thickness_factor", "ConvergenceResult", "grid_convergence", "representative_size",

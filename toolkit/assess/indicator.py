@@ -18,15 +18,14 @@ import numpy as np
 
 from toolkit.core import stress as _stress
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
-from toolkit.core.fields import GaussField, NodalField
-from toolkit.assess.paths import RowLayout
+from toolkit.core.fields import GaussField, NodalField, RowLayout
 
 __all__ = ["ErrorIndicator", "error_indicator", "compliance_matrix", "indicator_rule"]
 
 
 def compliance_matrix(components, E, nu, plane="stress") -> np.ndarray:
     """Isotropic compliance ``C`` with ``σ^T C σ = σ:ε`` (tensor shears) in the
-    order of ``components`` (a stress set of :mod:`toolkit.stress`).
+    order of ``components`` (a stress set of :mod:`toolkit.core.stress`).
 
     ``(sxx, syy, sxy)`` with ``plane="stress"``: ``1/E [[1, -ν, 0], [-ν, 1,
     0], [0, 0, 2(1+ν)]]``; with ``plane="strain"`` (``szz = ν(sxx+syy)`` not
@@ -112,32 +111,10 @@ class ErrorIndicator:
         """Map of the per-element error over a 2D mesh (cells drawn as their
         corner polygons).  ``quantity``: ``"error"`` (``||e||_K``) or
         ``"density"`` (``||e||_K / sqrt(area_K)``, independent of element
-        size).  Returns the axes; matplotlib is imported here."""
-        import matplotlib.pyplot as plt
-        from matplotlib.collections import PolyCollection
+        size).  Returns the axes (drawn by :func:`toolkit.report.plots.plot_indicator`)."""
+        from toolkit.report.plots import plot_indicator
 
-        if self.mesh.dim != 2:
-            raise ValueError("ErrorIndicator.plot maps 2D meshes only")
-        if quantity not in ("error", "density"):
-            raise ValueError(f"quantity must be 'error' or 'density', got {quantity!r}")
-        if ax is None:
-            _, ax = plt.subplots()
-        polys, vals = [], []
-        for b in self.mesh.blocks:
-            xy = self.mesh.nodes[b.cells[:, :b.element.ncorners]]
-            v = self.per_block[b.name]
-            if quantity == "density":
-                v = v / np.sqrt(self.mesh.volumes(b.name))
-            polys.extend(xy)
-            vals.append(v)
-        pc = PolyCollection(polys, array=np.concatenate(vals), cmap=cmap, edgecolors=edgecolor)
-        ax.add_collection(pc)
-        ax.autoscale_view()
-        ax.set_aspect("equal")
-        ax.set_title(f"ZZ error estimate ({self.measure}), eta = {100 * self.eta:.3g} %")
-        if colorbar:
-            ax.figure.colorbar(pc, ax=ax, label="||e||_K" if quantity == "error" else "||e||_K / sqrt(A_K)")
-        return ax
+        return plot_indicator(self, ax, quantity, cmap, edgecolor, colorbar)
 
 
 def error_indicator(field: GaussField, recovered: NodalField, E=None, nu=None, plane="stress",
