@@ -10,21 +10,11 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.core.elements import local_field_matrix
+from toolkit.core.elements import get_element, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
 
-__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "plot_indicator",
-           "SUBTRIANGLES"]
-
-# Local sub-triangles used to draw each 2D element type (node indices).
-SUBTRIANGLES = {
-    "tri3": [(0, 1, 2)],
-    "tri6": [(0, 3, 5), (3, 1, 4), (5, 4, 2), (3, 4, 5)],
-    "quad4": [(0, 1, 2), (0, 2, 3)],
-    "quad8": [(0, 4, 7), (4, 1, 5), (5, 2, 6), (6, 3, 7), (4, 5, 7), (5, 6, 7)],
-    "quad9": [(0, 4, 8), (4, 1, 8), (1, 5, 8), (5, 2, 8), (2, 6, 8), (6, 3, 8), (3, 7, 8), (7, 0, 8)],
-}
+__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "plot_indicator"]
 
 
 def _axes(ax):
@@ -70,7 +60,7 @@ def _triangulation(xy, cell_rows_by_block):
 
     tris = []
     for name, rows in cell_rows_by_block.items():
-        for t in SUBTRIANGLES[name]:
+        for t in get_element(name).plot_triangles:     # the type's declared drawing sub-triangles
             tris.append(rows[:, list(t)])
     return mtri.Triangulation(xy[:, 0], xy[:, 1], np.concatenate(tris))
 
