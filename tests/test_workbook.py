@@ -7,7 +7,6 @@ width 12, count 4, "round": area = 12 * 4 * 2 = 96 mm2 (the defaults give 30),
 utilization = 96 / 100 = 0.96.  Only three kernels are started (two identical
 renders and one failing render); everything else runs without a kernel.
 """
-import argparse
 import hashlib
 import json
 import re
@@ -18,9 +17,10 @@ import nbformat
 import pytest
 
 from toolkit.assess.checks import CheckResult
-from toolkit.workbook.runner import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
-                              _html, add_commands, inputs_hash, new_workbook, parse_assignment,
-                              parse_parameters, read_summary, render)
+from toolkit.cli import build_parser
+from toolkit.workbook import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
+                              inputs_hash, new_workbook, parse_assignment, parse_parameters, read_summary, render)
+from toolkit.workbook.html import notebook_html
 
 DATA = Path(__file__).resolve().parent / "data"
 TINY = DATA / "tiny.ipynb"
@@ -205,7 +205,7 @@ def test_summary_refuses_bad_entries(call, message):
 def test_html_refuses_remote_images():
     nb = nbformat.v4.new_notebook(cells=[nbformat.v4.new_markdown_cell('<img src="https://example.org/a.png">')])
     with pytest.raises(WorkbookError, match="remote content"):
-        _html(nb, "remote")
+        notebook_html(nb, "remote")
 
 
 # ---------------------------------------------------------------------------
@@ -233,9 +233,7 @@ def test_new_workbook_copies_template_and_sets_component(tmp_path):
 # Command line (no kernel)
 # ---------------------------------------------------------------------------
 def _parser():
-    ap = argparse.ArgumentParser(prog="stresspath")
-    add_commands(ap.add_subparsers(dest="command", required=True))
-    return ap
+    return build_parser()
 
 
 def test_cli_render_bad_parameter_exits_2_with_reason(tmp_path, capsys):

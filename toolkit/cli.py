@@ -172,8 +172,8 @@ def _cmd_demo(args) -> int:
     rendered with its defaults into OUT/<workbook>/."""
     from pathlib import Path
 
+    from toolkit.workbook.create import demo as render_all
     from toolkit.workbook.recovery_demo import run_demo
-    from toolkit.workbook.runner import demo as render_all
 
     out = Path(args.out)
     print("== recovery demo ==")
@@ -183,6 +183,47 @@ def _cmd_demo(args) -> int:
     print("\n== workbooks ==")
     render_all(out, progress=False)
     print(f"\nreports in {out}/: open <workbook>/<workbook>.html in a browser")
+    return 0
+
+
+def _cmd_render(args) -> int:
+    """Exit code 0 done, 1 a cell failed, 2 bad input (one line on stderr)."""
+    from toolkit.errors import ParameterError, WorkbookError, WorkbookExecutionError
+    from toolkit.workbook.execute import render
+    from toolkit.workbook.parameters import parse_assignment
+
+    try:
+        given = {}
+        for a in args.assignments:
+            k, v = parse_assignment(a)
+            if k in given:
+                raise ParameterError(f"--set {k} given twice")
+            given[k] = v
+        r = render(args.workbook, args.out, params=given, params_file=args.params, timeout=args.timeout,
+                   progress=not args.quiet)
+    except WorkbookExecutionError as e:
+        print(f"error: {e}", file=sys.stderr)
+        return 1
+    except WorkbookError as e:
+        print(f"error: {e}", file=sys.stderr)
+        return 2
+    checks = r.summary["checks"]
+    fails = sum(c["status"] == "FAIL" for c in checks)
+    print(f"wrote {r.notebook}, {r.html}, {r.summary_path} in {r.seconds:.1f} s "
+          f"(inputs {r.summary['inputs_hash']}; {len(checks)} checks, {fails} FAIL)")
+    return 0
+
+
+def _cmd_new(args) -> int:
+    from toolkit.errors import WorkbookError
+    from toolkit.workbook.create import new_workbook
+
+    try:
+        p = new_workbook(args.template, args.name, args.out)
+    except WorkbookError as e:
+        print(f"error: {e}", file=sys.stderr)
+        return 2
+    print(f"wrote {p}")
     return 0
 
 
@@ -222,6 +263,30 @@ def _add_demo(sub):
     p.set_defaults(func=_cmd_demo)
 
 
+def _add_render(sub):
+    p = sub.add_parser("render", help="run a workbook and write notebook, HTML report and summary.json",
+                       description="Run a workbook with parameters; write <name>.ipynb, <name>.html "
+                                   "and summary.json into --out.")
+    p.add_argument("workbook", help="workbook name in workbooks/ or path to an .ipynb")
+    p.add_argument("--set", dest="assignments", action="append", default=[], metavar="NAME=VALUE",
+                   help="set a parameter (value read as JSON where possible, else as text); repeatable")
+    p.add_argument("--params", metavar="FILE.json", help="JSON object of parameter values (--set wins)")
+    p.add_argument("--out", required=True, metavar="DIR", help="output folder")
+    p.add_argument("--timeout", type=float, default=600, metavar="S", help="seconds allowed per cell (600)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=_cmd_render)
+
+
+def _add_new(sub):
+    p = sub.add_parser("new", help="start a calculation from a template workbook",
+                       description="Copy a template workbook to DIR/NAME.ipynb with outputs cleared "
+                                   "and the component set to NAME.")
+    p.add_argument("template", help="template name in workbooks/")
+    p.add_argument("name", help="component name (also the file name)")
+    p.add_argument("--out", required=True, metavar="DIR", help="output folder")
+    p.set_defaults(func=_cmd_new)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(prog="python -m toolkit",
                                      description="Stresspath: from integration-point stresses to continuous "
@@ -229,10 +294,8 @@ def build_parser() -> argparse.ArgumentParser:
     from toolkit import __version__
     parser.add_argument("--version", action="version", version=f"stresspath {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    for add in (_add_recover, _add_export_vtu, _add_demo):
+    for add in (_add_recover, _add_export_vtu, _add_demo, _add_render, _add_new):
         add(sub)
-    from toolkit.workbook.runner import add_commands as _add_workbook_commands
-    _add_workbook_commands(sub)
     return parser
 
 

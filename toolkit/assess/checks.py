@@ -40,35 +40,6 @@ IIW_2016 = "IIW recommendations (Hobbacher 2016, XIII-2460-13)"
 # ---------------------------------------------------------------------------
 # Check result
 # ---------------------------------------------------------------------------
-def _plain(v):
-    """JSON-friendly copy of a value (numpy scalars and arrays to Python)."""
-    if isinstance(v, dict):
-        return {str(k): _plain(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_plain(x) for x in v]
-    if isinstance(v, np.ndarray):
-        return _plain(v.tolist())
-    if isinstance(v, np.generic):
-        return v.item()
-    if isinstance(v, float) and not math.isfinite(v):
-        return "inf" if v > 0 else ("-inf" if v < 0 else "nan")
-    if isinstance(v, SNCurve):
-        return v.to_dict()
-    return v
-
-
-def _fmt(v):
-    if isinstance(v, (float, np.floating)):
-        return f"{float(v):.6g}"
-    if isinstance(v, np.ndarray):
-        if v.dtype.kind == "f":     # 6 significant digits, like the scalars (not solver round-off)
-            return np.array2string(v, threshold=8, separator=" ", formatter={"float_kind": lambda x: f"{x:.6g}"})
-        return np.array2string(v, threshold=8)
-    if isinstance(v, SNCurve):
-        return v.label()
-    return str(v)
-
-
 @dataclass
 class CheckResult:
     """Outcome of one check: ``utilization = value / limit``, ``PASS`` if <= 1.
@@ -110,10 +81,12 @@ class CheckResult:
 
     def rows(self):
         """(label, text) rows of the table shown by ``__repr__`` and ``_repr_html_``."""
+        from toolkit.report.format import fmt  # display delegates to the report layer
+
         u = f" {self.unit}" if self.unit and self.unit != "-" else ""
         rows = [("value", f"{self.value:.6g}{u}"), ("limit", f"{self.limit:.6g}{u}"),
                 ("utilization", f"{self.utilization:.3f}"), ("status", self.status)]
-        rows += [(f"input: {k}", _fmt(v)) for k, v in self.inputs.items()]
+        rows += [(f"input: {k}", v.label() if isinstance(v, SNCurve) else fmt(v, 6)) for k, v in self.inputs.items()]
         rows += [("note", n) for n in self.notes]
         rows.append(("caution", self.cautions))
         return rows
@@ -130,8 +103,11 @@ class CheckResult:
                 f"{html.escape(self.status)}</caption>{body}</table>")
 
     def to_dict(self) -> dict:
+        """JSON-ready record; inputs by :func:`toolkit.report.format.plain` (NaN and infinity as text)."""
+        from toolkit.report.format import plain  # display delegates to the report layer
+
         return {"name": self.name, "value": self.value, "limit": self.limit, "utilization": self.utilization,
-                "status": self.status, "unit": self.unit, "inputs": _plain(self.inputs),
+                "status": self.status, "unit": self.unit, "inputs": plain(self.inputs, f"check {self.name!r} inputs"),
                 "notes": list(self.notes), "cautions": self.cautions}
 
 
