@@ -16,16 +16,23 @@ new TEMPLATE NAME --out DIR
 demo [--out reports] [--recovery-only]
     The recovery demo, then every workbook rendered with its defaults.
 
-On bad input every command exits with code 2 after one line
-``error: <reason>`` on stderr, and writes no output file.  Each subcommand is
-added by one ``_add_<name>`` function, so new commands are one function each.
+Exit codes: 0 done (a FAIL in a check is still a written report); 2 bad
+input (a :class:`toolkit.errors.StresspathError` or an ``OSError``: one line
+``error: <reason>`` on stderr, no output file written); 1 a workbook cell
+failed (one line; the executed notebook holds the traceback), or an internal
+error: anything else is a bug in the toolkit, shown with its traceback and a
+request to report it; 130 interrupted.  Each subcommand is added by one
+``_add_<name>`` function, so new commands are one function each.
 """
 from __future__ import annotations
 
 import argparse
 import sys
 import time
+import traceback
 from pathlib import Path
+
+from toolkit.errors import InputError, StresspathError, WorkbookExecutionError
 
 #: Recovery methods by their command-line name, with a one-line description (see ``_recover``).
 METHODS = {
@@ -50,7 +57,7 @@ def _recover(field, method: str, across_regions: bool):
     if method == "spr":
         from toolkit.recovery.spr import recover_spr
         return recover_spr(field, across_regions=across_regions)
-    raise ValueError(f"unknown method {method!r}; use one of {', '.join(METHODS)}")
+    raise InputError(f"unknown method {method!r}; use one of {', '.join(METHODS)}")
 
 
 # ---------------------------------------------------------------------------
@@ -187,26 +194,19 @@ def _cmd_demo(args) -> int:
 
 
 def _cmd_render(args) -> int:
-    """Exit code 0 done, 1 a cell failed, 2 bad input (one line on stderr)."""
-    from toolkit.errors import ParameterError, WorkbookError, WorkbookExecutionError
+    """Exit code 0 done, 1 a cell failed, 2 bad input (one line on stderr; see :func:`main`)."""
+    from toolkit.errors import ParameterError
     from toolkit.workbook.execute import render
     from toolkit.workbook.parameters import parse_assignment
 
-    try:
-        given = {}
-        for a in args.assignments:
-            k, v = parse_assignment(a)
-            if k in given:
-                raise ParameterError(f"--set {k} given twice")
-            given[k] = v
-        r = render(args.workbook, args.out, params=given, params_file=args.params, timeout=args.timeout,
-                   progress=not args.quiet)
-    except WorkbookExecutionError as e:
-        print(f"error: {e}", file=sys.stderr)
-        return 1
-    except WorkbookError as e:
-        print(f"error: {e}", file=sys.stderr)
-        return 2
+    given = {}
+    for a in args.assignments:
+        k, v = parse_assignment(a)
+        if k in given:
+            raise ParameterError(f"--set {k} given twice")
+        given[k] = v
+    r = render(args.workbook, args.out, params=given, params_file=args.params, timeout=args.timeout,
+               progress=not args.quiet)
     checks = r.summary["checks"]
     fails = sum(c["status"] == "FAIL" for c in checks)
     print(f"wrote {r.notebook}, {r.html}, {r.summary_path} in {r.seconds:.1f} s "
@@ -215,14 +215,9 @@ def _cmd_render(args) -> int:
 
 
 def _cmd_new(args) -> int:
-    from toolkit.errors import WorkbookError
     from toolkit.workbook.create import new_workbook
 
-    try:
-        p = new_workbook(args.template, args.name, args.out)
-    except WorkbookError as e:
-        print(f"error: {e}", file=sys.stderr)
-        return 2
+    p = new_workbook(args.template, args.name, args.out)
     print(f"wrote {p}")
     return 0
 
@@ -303,8 +298,21 @@ def _one_line(e: BaseException) -> str:
     return " ".join(str(e).split()) or type(e).__name__
 
 
+def _report_bug(e: BaseException) -> int:
+    """An exception that is not the user's: the traceback, and who to tell."""
+    from toolkit import __version__
+
+    traceback.print_exception(e, file=sys.stderr)
+    print(f"error: internal error in Stresspath {__version__} ({type(e).__name__}), not a problem with your "
+          "input; please report it with the command line and the traceback above", file=sys.stderr)
+    return 1
+
+
 def main(argv=None) -> int:
-    """Run the command line; returns the exit code (0 success, 2 bad input)."""
+    """Run the command line; returns the exit code (see the module notes).
+
+    Only the toolkit's own errors (:class:`toolkit.errors.StresspathError`)
+    and ``OSError`` are the user's to fix; any other exception is a bug."""
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -315,12 +323,17 @@ def main(argv=None) -> int:
         return 2
     try:
         return int(args.func(args) or 0)
-    except (ValueError, OSError, RuntimeError) as e:
+    except WorkbookExecutionError as e:          # a cell failed: the executed notebook shows where
+        print(f"error: {_one_line(e)}", file=sys.stderr)
+        return 1
+    except (StresspathError, OSError) as e:
         print(f"error: {_one_line(e)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("error: interrupted", file=sys.stderr)
         return 130
+    except Exception as e:                       # noqa: BLE001 -- anything else is a bug: show it
+        return _report_bug(e)
 
 
 if __name__ == "__main__":

@@ -13,6 +13,7 @@ from dataclasses import dataclass
 import numpy as np
 import scipy.sparse as sp
 
+from toolkit.errors import InputError
 from toolkit.core.locate import Location
 from toolkit.core.mesh import Mesh
 
@@ -51,26 +52,26 @@ class Path(ABC):
         or the given ``distances`` checked (finite, non-decreasing, within
         the path)."""
         if n is not None and distances is not None:
-            raise ValueError("give either n or distances, not both")
+            raise InputError("give either n or distances, not both")
         L = self.length
         if distances is None:
             n = 101 if n is None else n
             if int(n) != n or n < 2:
-                raise ValueError(f"n must be an integer >= 2, got {n}")
+                raise InputError(f"n must be an integer >= 2, got {n}")
             return np.linspace(0.0, L, int(n))
         d = np.atleast_1d(np.asarray(distances, dtype=float))
         if d.ndim != 1 or d.size == 0:
-            raise ValueError(f"distances must be a non-empty 1D array, got shape {np.shape(distances)}")
+            raise InputError(f"distances must be a non-empty 1D array, got shape {np.shape(distances)}")
         if not np.all(np.isfinite(d)):
-            raise ValueError(f"distance {int(np.flatnonzero(~np.isfinite(d))[0])} is not finite")
+            raise InputError(f"distance {int(np.flatnonzero(~np.isfinite(d))[0])} is not finite")
         eps = 1e-12 * L
         bad = (d < -eps) | (d > L + eps)
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
-            raise ValueError(f"distance {i} = {d[i]:.6g} lies off the path (0 .. {L:.6g}); {int(bad.sum())} such")
+            raise InputError(f"distance {i} = {d[i]:.6g} lies off the path (0 .. {L:.6g}); {int(bad.sum())} such")
         if np.any(np.diff(d) < 0):
             i = int(np.flatnonzero(np.diff(d) < 0)[0])
-            raise ValueError(f"distances must not decrease: distance {i + 1} = {d[i + 1]:.6g} < {d[i]:.6g}")
+            raise InputError(f"distances must not decrease: distance {i + 1} = {d[i + 1]:.6g} < {d[i]:.6g}")
         return np.clip(d, 0.0, L)
 
     def sample(self, n=None, distances=None) -> PathSamples:
@@ -87,7 +88,7 @@ class Path(ABC):
         norm = np.linalg.norm(n, axis=1)
         bad = norm < 1e-8 * np.linalg.norm(self.normal_ref)
         if bad.any():
-            raise ValueError(f"{self.label}: the reference normal is parallel to the tangent at sample "
+            raise InputError(f"{self.label}: the reference normal is parallel to the tangent at sample "
                              f"{int(np.flatnonzero(bad)[0])}")
         return n / norm[:, None]
 
@@ -101,7 +102,7 @@ class Path(ABC):
 
     def shifted(self, offset: float) -> "Path":
         """The path moved by ``offset`` along its normal (see subclasses)."""
-        raise ValueError(f"a {type(self).__name__} cannot be shifted; build a new path instead")
+        raise InputError(f"a {type(self).__name__} cannot be shifted; build a new path instead")
 
     def __repr__(self):
         return f"{type(self).__name__}({self.label!r}, length {self.length:.6g}, {self.dim}D)"
@@ -111,10 +112,10 @@ def _normal_ref(normal, dim, label):
     if normal is None:
         return None
     if dim == 2:
-        raise ValueError(f"{label}: normal= is for 3D paths; a 2D path's normal is its tangent turned +90 degrees")
+        raise InputError(f"{label}: normal= is for 3D paths; a 2D path's normal is its tangent turned +90 degrees")
     v = np.asarray(normal, dtype=float)
     if v.shape != (3,) or not np.all(np.isfinite(v)) or np.linalg.norm(v) == 0:
-        raise ValueError(f"{label}: normal must be a non-zero 3-vector, got {normal!r}")
+        raise InputError(f"{label}: normal must be a non-zero 3-vector, got {normal!r}")
     return v / np.linalg.norm(v)
 
 
@@ -126,16 +127,16 @@ class Polyline(Path):
     def __init__(self, vertices, normal=None, label="polyline"):
         v = np.asarray(vertices, dtype=float)
         if v.ndim != 2 or v.shape[0] < 2 or v.shape[1] not in (2, 3):
-            raise ValueError(f"{label}: vertices must be shaped (m >= 2, 2 or 3), got {v.shape}")
+            raise InputError(f"{label}: vertices must be shaped (m >= 2, 2 or 3), got {v.shape}")
         if not np.all(np.isfinite(v)):
-            raise ValueError(f"{label}: vertex {int(np.flatnonzero(~np.isfinite(v).all(1))[0])} is not finite")
+            raise InputError(f"{label}: vertex {int(np.flatnonzero(~np.isfinite(v).all(1))[0])} is not finite")
         seg = np.diff(v, axis=0)
         ln = np.linalg.norm(seg, axis=1)
         scale = np.abs(v).max() + ln.max()
         zero = ln <= 1e-14 * scale
         if zero.any():
             i = int(np.flatnonzero(zero)[0])
-            raise ValueError(f"{label}: vertices {i} and {i + 1} coincide (zero-length segment)")
+            raise InputError(f"{label}: vertices {i} and {i + 1} coincide (zero-length segment)")
         self.vertices = v
         self.dim = v.shape[1]
         self.label = label
@@ -147,7 +148,7 @@ class Polyline(Path):
     def shifted(self, offset: float) -> "Polyline":
         """A copy translated by ``offset`` along the first segment's normal (2D)."""
         if self.dim != 2:
-            raise ValueError(f"{self.label}: only 2D paths can be shifted along their normal")
+            raise InputError(f"{self.label}: only 2D paths can be shifted along their normal")
         n0 = self._normals(self._t[:1])[0]
         return Polyline(self.vertices + float(offset) * n0, label=self.label)
 
@@ -179,11 +180,11 @@ class Arc(Path):
     def __init__(self, centre, radius, angle0, angle1):
         c = np.asarray(centre, dtype=float)
         if c.shape != (2,) or not np.all(np.isfinite(c)):
-            raise ValueError(f"arc: centre must be a finite 2D point, got {centre!r} (arcs are 2D only)")
+            raise InputError(f"arc: centre must be a finite 2D point, got {centre!r} (arcs are 2D only)")
         if not (np.isfinite(radius) and radius > 0):
-            raise ValueError(f"arc: radius must be > 0, got {radius}")
+            raise InputError(f"arc: radius must be > 0, got {radius}")
         if not (np.isfinite(angle0) and np.isfinite(angle1)) or angle0 == angle1:
-            raise ValueError(f"arc: angles must be finite and differ, got {angle0}, {angle1}")
+            raise InputError(f"arc: angles must be finite and differ, got {angle0}, {angle1}")
         self.centre, self.radius = c, float(radius)
         self.angle0, self.angle1 = float(angle0), float(angle1)
         self._a0 = np.radians(self.angle0)
@@ -196,7 +197,7 @@ class Arc(Path):
         """The concentric arc moved by ``offset`` along the normal."""
         r = self.radius - self._sign * float(offset)
         if r <= 0:
-            raise ValueError(f"arc: a shift of {offset} leaves no arc (radius {r:.6g})")
+            raise InputError(f"arc: a shift of {offset} leaves no arc (radius {r:.6g})")
         return Arc(self.centre, r, self.angle0, self.angle1)
 
     def _at(self, d):
@@ -235,38 +236,38 @@ class EdgePath(Path):
 
     def __init__(self, mesh: Mesh, edges, label="edges"):
         if not isinstance(mesh, Mesh):
-            raise ValueError("edge_path needs a Mesh")
+            raise InputError("edge_path needs a Mesh")
         e = np.asarray(edges)
         if e.ndim != 2 or e.shape[1] not in (2, 3) or len(e) == 0:
-            raise ValueError(f"{label}: edges must be shaped (m, 2) or (m, 3), got {e.shape}")
+            raise InputError(f"{label}: edges must be shaped (m, 2) or (m, 3), got {e.shape}")
         if e.size and not np.issubdtype(e.dtype, np.integer):
             if not np.all(np.isfinite(e.astype(float))) or not np.all(e == np.round(e)):
-                raise ValueError(f"{label}: edge node indices must be integers")
+                raise InputError(f"{label}: edge node indices must be integers")
         e = e.astype(np.int64)
         n = mesh.nnodes
         bad = np.flatnonzero(((e < 0) | (e >= n)).any(axis=1))
         if bad.size:
-            raise ValueError(f"{label}: edge row {int(bad[0])} has a node index outside 0..{n - 1} ({e[bad[0]].tolist()})")
+            raise InputError(f"{label}: edge row {int(bad[0])} has a node index outside 0..{n - 1} ({e[bad[0]].tolist()})")
         self.mesh, self.label, self.dim = mesh, label, mesh.dim
         self.normal_ref = None
         self.edges_in = e
         a, b = e[:, 0], e[:, 1]
         same = np.flatnonzero(a == b)
         if same.size:
-            raise ValueError(f"{label}: edge row {int(same[0])} starts and ends at node {int(a[same[0]])}")
+            raise InputError(f"{label}: edge row {int(same[0])} starts and ends at node {int(a[same[0]])}")
         key = np.minimum(a, b) * n + np.maximum(a, b)
         ks = np.sort(key)
         dup = np.flatnonzero(ks[1:] == ks[:-1])
         if dup.size:
             r = np.flatnonzero(key == ks[dup[0]])
-            raise ValueError(f"{label}: edge rows {int(r[0])} and {int(r[1])} join the same two corner nodes")
+            raise InputError(f"{label}: edge rows {int(r[0])} and {int(r[1])} join the same two corner nodes")
         self._chain(a, b, key)
         self._match_cells(e)
         self._owner = {None: self._owners(None)}
         own = self._owner[None]
         if not own[0].all():
             i = int(np.flatnonzero(~own[0])[0])
-            raise ValueError(f"{label}: edge row {self.order[i]} (nodes {self.start[i]}-{self.end[i]}) is not an edge "
+            raise InputError(f"{label}: edge row {self.order[i]} (nodes {self.start[i]}-{self.end[i]}) is not an edge "
                              "of any cell, or its mid-side node differs from the cell's")
         # lengths
         s = np.broadcast_to(_GL_S, (len(self.order), len(_GL_S)))
@@ -285,7 +286,7 @@ class EdgePath(Path):
         deg = np.bincount(np.r_[a, b], minlength=n)
         if deg.max() > 2:
             node = int(np.flatnonzero(deg > 2)[0])
-            raise ValueError(f"{self.label}: node {int(self.mesh.node_ids[node])} joins {deg[node]} edges; "
+            raise InputError(f"{self.label}: node {int(self.mesh.node_ids[node])} joins {deg[node]} edges; "
                              "a path must be one chain without branches")
         used = np.flatnonzero(deg > 0)
         local = np.full(n, -1)
@@ -293,7 +294,7 @@ class EdgePath(Path):
         g = sp.csr_matrix((np.ones(len(a)), (local[a], local[b])), shape=(used.size, used.size))
         ncomp, _ = connected_components(g, directed=False)
         if ncomp != 1:
-            raise ValueError(f"{self.label}: the edges form {ncomp} separate chains; give one connected chain")
+            raise InputError(f"{self.label}: the edges form {ncomp} separate chains; give one connected chain")
         ends = np.flatnonzero(deg[used] == 1)
         self.closed = ends.size == 0
         start = local[a[0]] if self.closed else ends[0]
@@ -405,7 +406,7 @@ class EdgePath(Path):
         key = None if region is None else int(region)
         if key not in self._owner:
             if key not in set(self.mesh.regions.tolist()):
-                raise ValueError(f"region {region} is not in the mesh; regions: {self.mesh.regions.tolist()}")
+                raise InputError(f"region {region} is not in the mesh; regions: {self.mesh.regions.tolist()}")
             self._owner[key] = self._owners(key)
         own = self._owner[key]
         ei, s = self._param(samples.distances)
@@ -437,7 +438,7 @@ def path_from_spec(spec: dict) -> Path:
     An optional ``"name"`` is kept as the path's label.  Unknown keys raise.
     """
     if not isinstance(spec, dict):
-        raise ValueError(f"a path is given as a dict, got {type(spec).__name__}")
+        raise InputError(f"a path is given as a dict, got {type(spec).__name__}")
     name = str(spec.get("name", "path"))
     keys = set(spec) - {"name"}
     if keys == {"start", "end"}:
@@ -447,7 +448,7 @@ def path_from_spec(spec: dict) -> Path:
     elif keys == {"centre", "radius", "from", "to"}:
         p = arc(spec["centre"], spec["radius"], spec["from"], spec["to"])
     else:
-        raise ValueError(f"path {name!r}: give start+end, points, or centre+radius+from+to; got keys "
+        raise InputError(f"path {name!r}: give start+end, points, or centre+radius+from+to; got keys "
                          f"{sorted(keys)}")
     p.label = name
     return p

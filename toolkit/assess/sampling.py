@@ -9,6 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core import stress as _stress
 from toolkit.core.elements import local_field_matrix
 from toolkit.core.fields import GaussField, NodalField, RowLayout
@@ -193,17 +194,17 @@ class PathResult:
 # ---------------------------------------------------------------------------
 def _locate_samples(mesh, path, samples, region, locator):
     if not isinstance(path, Path):
-        raise ValueError(f"path must be a Path (line, polyline, arc, edge_path), got {type(path).__name__}")
+        raise InputError(f"path must be a Path (line, polyline, arc, edge_path), got {type(path).__name__}")
     if path.dim != mesh.dim:
-        raise ValueError(f"a {path.dim}D path on a {mesh.dim}D mesh")
+        raise InputError(f"a {path.dim}D path on a {mesh.dim}D mesh")
     if isinstance(path, EdgePath) and path.mesh is not mesh:
-        raise ValueError("the edge path was built on another mesh than the field's")
+        raise InputError("the edge path was built on another mesh than the field's")
     loc = path.locate(samples, region)
     if loc is None:
         if locator is None:
             locator = PointLocator.for_mesh(mesh)
         elif locator.mesh is not mesh:
-            raise ValueError("the locator was built for another mesh than the field's")
+            raise InputError("the locator was built for another mesh than the field's")
         loc = locator.locate(samples.points, region)
     return loc
 
@@ -238,10 +239,10 @@ def sample(nodal: NodalField, path: Path, n=None, distances=None, region=None, o
     ([0.0, 1.0, 2.0, 3.0, 4.0], [100.0, 110.0, 120.0, 130.0, 140.0])
     """
     if isinstance(nodal, GaussField):
-        raise ValueError("sample needs a NodalField: recover one first (project_l2, recover_spr, average_nodal), "
+        raise InputError("sample needs a NodalField: recover one first (project_l2, recover_spr, average_nodal), "
                          "or use raw_along for the raw integration-point field")
     if not isinstance(nodal, NodalField):
-        raise ValueError("sample needs a NodalField")
+        raise InputError("sample needs a NodalField")
     check_outside(outside)
     mesh = nodal.mesh
     samples = path.sample(n, distances)
@@ -275,7 +276,7 @@ def raw_along(field: GaussField, path: Path, n=None, distances=None, region=None
     sample indices of each cell crossed, in order).
     """
     if not isinstance(field, GaussField):
-        raise ValueError("raw_along needs a GaussField (the integration-point values)")
+        raise InputError("raw_along needs a GaussField (the integration-point values)")
     check_outside(outside)
     mesh = field.mesh
     s0 = path.sample(n, distances)
@@ -291,7 +292,7 @@ def raw_along(field: GaussField, path: Path, n=None, distances=None, region=None
 
     loc0 = _locate_samples(mesh, path, s0, region, locator)
     if not loc0.found.all() and outside == "raise":
-        raise ValueError(loc0.outside_message("points", s0.distances))
+        raise InputError(loc0.outside_message("points", s0.distances))
     d = s0.distances.copy()
     key = loc0.key()
     pair = np.zeros(len(d), dtype=bool)        # True: sample i and i+1 are the two sides of one crossing
@@ -323,7 +324,7 @@ def raw_along(field: GaussField, path: Path, n=None, distances=None, region=None
         key = np.insert(key, ins_at, new_k)
         pair = np.insert(pair, ins_at, new_pair)
     else:
-        raise ValueError(f"raw_along: more than {max_crossings} rounds of element crossings; sample more densely")
+        raise InputError(f"raw_along: more than {max_crossings} rounds of element crossings; sample more densely")
     samples = path.sample(distances=d)
     loc = _locate_samples(mesh, path, samples, region, locator)
     key = loc.key()

@@ -29,6 +29,8 @@ import itertools
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = [
     "QuadratureRule", "ElementType", "ELEMENTS", "get_element",
     "gauss_legendre_rule", "simplex_rule", "rule_of_degree", "local_field_exponents", "local_field_matrix",
@@ -152,7 +154,7 @@ def simplex_rule(shape: str, npoints: int) -> QuadratureRule:
         name, degree, groups = SIMPLEX_RULES[(shape, npoints)]
     except KeyError:
         have = sorted(n for s, n in SIMPLEX_RULES if s == shape)
-        raise ValueError(f"no {shape} rule with {npoints} points; available: {have}") from None
+        raise InputError(f"no {shape} rule with {npoints} points; available: {have}") from None
     pts, w = (_sym_tri if shape == "tri" else _sym_tet)(groups)
     return QuadratureRule(name, shape, pts, w, degree)
 
@@ -165,7 +167,7 @@ def rule_of_degree(shape: str, degree: int) -> QuadratureRule:
         return gauss_legendre_rule(n, 2 if shape == "quad" else 3)
     cands = sorted((d, n) for (s, n), (_, d, _) in SIMPLEX_RULES.items() if s == shape and d >= degree)
     if not cands:
-        raise ValueError(f"no stored {shape} rule is exact to degree {degree}")
+        raise InputError(f"no stored {shape} rule is exact to degree {degree}")
     return simplex_rule(shape, cands[0][1])
 
 
@@ -224,7 +226,7 @@ def local_field_exponents(shape: str, npoints: int) -> tuple[np.ndarray, int]:
         if npoints in table:
             p = table[npoints]
             return np.array(_total_exponents(p, dim)), p
-    raise ValueError(
+    raise InputError(
         f"no local field is defined for {npoints} points on a {shape} element; "
         "give values at a complete rule (quad/hex: n^d points; tri: 1, 3 or 6; tet: 1, 4 or 10)")
 
@@ -285,13 +287,13 @@ class ElementType:
         object.__setattr__(self, "nodes", nodes)
         object.__setattr__(self, "exponents", exps)
         if exps.shape != nodes.shape:
-            raise ValueError(f"{self.name}: {len(exps)} monomials for {len(nodes)} nodes")
+            raise InputError(f"{self.name}: {len(exps)} monomials for {len(nodes)} nodes")
         tris = tuple(tuple(int(a) for a in t) for t in self.plot_triangles)
         if any(len(t) != 3 or not all(0 <= a < len(nodes) for a in t) for t in tris):
-            raise ValueError(f"{self.name}: plot_triangles must be triples of local node numbers")
+            raise InputError(f"{self.name}: plot_triangles must be triples of local node numbers")
         object.__setattr__(self, "plot_triangles", tris)
         if self.projection_preconditioner not in ("element", "jacobi"):
-            raise ValueError(f"{self.name}: projection_preconditioner must be 'element' or 'jacobi'")
+            raise InputError(f"{self.name}: projection_preconditioner must be 'element' or 'jacobi'")
 
     # -- basic facts
     @property
@@ -350,7 +352,7 @@ class ElementType:
         if xi.ndim == 1:
             xi = xi[None, :]
         if xi.ndim != 2 or xi.shape[1] != self.dim:
-            raise ValueError(f"{self.name}: natural coordinates must be shaped (points, {self.dim}), got {xi.shape}")
+            raise InputError(f"{self.name}: natural coordinates must be shaped (points, {self.dim}), got {xi.shape}")
         return xi
 
     def contains(self, xi, tol: float = 1e-8) -> np.ndarray:
@@ -370,14 +372,14 @@ class ElementType:
         points (``4`` on a quad means 2x2)."""
         if isinstance(which, QuadratureRule):
             if which.shape != self.shape:
-                raise ValueError(f"{self.name}: a {which.shape} rule does not fit a {self.shape} element")
+                raise InputError(f"{self.name}: a {which.shape} rule does not fit a {self.shape} element")
             return which
         if isinstance(which, str):
             try:
                 n = {"full": self.full_rule_points, "reduced": self.reduced_rule_points,
                      "mass": self.mass_rule_points}[which]
             except KeyError:
-                raise ValueError(f"{self.name}: unknown rule {which!r}; use 'full', 'reduced', 'mass' or a point count") from None
+                raise InputError(f"{self.name}: unknown rule {which!r}; use 'full', 'reduced', 'mass' or a point count") from None
         else:
             n = int(which)
         key = ("rule", n)
@@ -387,7 +389,7 @@ class ElementType:
             else:
                 per = round(n ** (1 / self.dim))
                 if per ** self.dim != n:
-                    raise ValueError(f"{self.name}: a tensor Gauss rule has n^{self.dim} points, not {n}")
+                    raise InputError(f"{self.name}: a tensor Gauss rule has n^{self.dim} points, not {n}")
                 self._cache[key] = gauss_legendre_rule(per, self.dim)
         return self._cache[key]
 
@@ -495,7 +497,7 @@ def get_element(name) -> ElementType:
     try:
         return ELEMENTS[str(name).lower()]
     except KeyError:
-        raise ValueError(f"unknown element type {name!r}; known: {', '.join(ELEMENTS)}") from None
+        raise InputError(f"unknown element type {name!r}; known: {', '.join(ELEMENTS)}") from None
 
 
 def local_field_matrix(element, data_points, targets) -> np.ndarray:
@@ -511,7 +513,7 @@ def local_field_matrix(element, data_points, targets) -> np.ndarray:
     Pd, _ = _monomials(data_points, exps)
     cond = np.linalg.cond(Pd)
     if not np.isfinite(cond) or cond > 1e10:
-        raise ValueError(f"{et.name}: the {len(data_points)} integration points do not determine a unique "
+        raise InputError(f"{et.name}: the {len(data_points)} integration points do not determine a unique "
                          f"local field (condition number {cond:.3g}); are two points at the same place?")
     Pt, _ = _monomials(targets, exps)
     return Pt @ np.linalg.inv(Pd)

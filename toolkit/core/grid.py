@@ -11,6 +11,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import ELEMENTS, get_element
 from toolkit.core.mesh import Mesh
 
@@ -89,9 +90,9 @@ def rectangle_mesh(etype="quad4", nx=4, ny=4, size=(1.0, 1.0), origin=(0.0, 0.0)
     callable of cell-centre coordinates (m, 2) returning region ids.
     """
     if etype not in ("tri3", "tri6", "quad4", "quad8", "quad9"):
-        raise ValueError(f"rectangle_mesh: etype must be a 2D type, got {etype!r}")
+        raise InputError(f"rectangle_mesh: etype must be a 2D type, got {etype!r}")
     if nx < 1 or ny < 1:
-        raise ValueError(f"rectangle_mesh: nx and ny must be >= 1, got {nx}, {ny}")
+        raise InputError(f"rectangle_mesh: nx and ny must be >= 1, got {nx}, {ny}")
     o = get_element(etype).degree    # node intervals per cell edge on the lattice
     pts, shape = _lattice((nx, ny), size, origin, distort, seed, o, grading)
     idx = _number(shape)
@@ -125,7 +126,7 @@ def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 
     """Structured mesh of a box; ``etype`` one of tet4, tet10, hex8, hex20
     (tetrahedra: six per cube, Kuhn subdivision, all positively oriented)."""
     if etype not in ("tet4", "tet10", "hex8", "hex20"):
-        raise ValueError(f"box_mesh: etype must be a 3D type, got {etype!r}")
+        raise InputError(f"box_mesh: etype must be a 3D type, got {etype!r}")
     o = get_element(etype).degree    # node intervals per cell edge on the lattice
     pts, shape = _lattice((nx, ny, nz), size, origin, distort, seed, o)
     idx = _number(shape)

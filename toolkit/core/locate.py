@@ -14,6 +14,7 @@ import weakref
 import numpy as np
 import scipy.sparse as sp
 
+from toolkit.errors import InputError
 from toolkit.core.elements import ELEMENTS
 from toolkit.core.fields import NodalField, RowLayout
 from toolkit.core.mesh import Mesh, inverse_map
@@ -96,17 +97,17 @@ def _check_points(points, dim, name="points"):
     if x.ndim == 1:
         x = x[None, :]
     if x.ndim != 2 or x.shape[1] != dim:
-        raise ValueError(f"{name} must be shaped (p, {dim}) for this {dim}D mesh, got {np.shape(points)}")
+        raise InputError(f"{name} must be shaped (p, {dim}) for this {dim}D mesh, got {np.shape(points)}")
     bad = ~np.isfinite(x).all(axis=1)
     if bad.any():
-        raise ValueError(f"{name}: row {int(np.flatnonzero(bad)[0])} is not finite ({int(bad.sum())} such rows)")
+        raise InputError(f"{name}: row {int(np.flatnonzero(bad)[0])} is not finite ({int(bad.sum())} such rows)")
     return x
 
 
 def check_outside(outside):
     """Check the ``outside=`` option: ``"raise"`` or ``"nan"``."""
     if outside not in ("raise", "nan"):
-        raise ValueError(f"outside must be 'raise' or 'nan', got {outside!r}")
+        raise InputError(f"outside must be 'raise' or 'nan', got {outside!r}")
 
 
 _LOCATORS: "weakref.WeakKeyDictionary[Mesh, PointLocator]" = weakref.WeakKeyDictionary()
@@ -175,9 +176,9 @@ class PointLocator:
         from scipy.spatial import cKDTree
 
         if not isinstance(mesh, Mesh):
-            raise ValueError("PointLocator needs a Mesh")
+            raise InputError("PointLocator needs a Mesh")
         if not (tol >= 0 and np.isfinite(tol)):
-            raise ValueError(f"tol must be a finite number >= 0, got {tol}")
+            raise InputError(f"tol must be a finite number >= 0, got {tol}")
         self.mesh = mesh
         self.tol = float(tol)
         lo, hi, blk, cel, reg = [], [], [], [], []
@@ -239,7 +240,7 @@ class PointLocator:
         mesh = self.mesh
         x = _check_points(points, mesh.dim)
         if region is not None and int(region) not in set(mesh.regions.tolist()):
-            raise ValueError(f"region {region} is not in the mesh; regions: {mesh.regions.tolist()}")
+            raise InputError(f"region {region} is not in the mesh; regions: {mesh.regions.tolist()}")
         p, g = self._candidates(x, None if region is None else int(region))
         xi_pair = np.full((len(p), mesh.dim), np.nan)
         inside = np.zeros(len(p), dtype=bool)
@@ -285,16 +286,16 @@ class PointLocator:
         check_outside(outside)
         mesh = self.mesh
         if location.mesh is not mesh:
-            raise ValueError("the location belongs to another mesh")
+            raise InputError("the location belongs to another mesh")
         layout = RowLayout(mesh, rows if rows is not None else DofMap(mesh, across_regions=False))
         return evaluation_operator(location, layout, outside, distances)
 
     def evaluate(self, nodal: NodalField, points, region=None, outside="raise") -> np.ndarray:
         """``nodal`` at ``points``: (p, components)."""
         if not isinstance(nodal, NodalField):
-            raise ValueError("evaluate needs a NodalField")
+            raise InputError("evaluate needs a NodalField")
         if nodal.mesh is not self.mesh:
-            raise ValueError("the nodal field belongs to another mesh than this locator")
+            raise InputError("the nodal field belongs to another mesh than this locator")
         return self.operator(points, region, nodal, outside) @ nodal.values
 
 
@@ -308,7 +309,7 @@ def evaluation_operator(loc: Location, layout: RowLayout, outside="raise", dista
     mesh = loc.mesh
     found = loc.found
     if not found.all() and outside == "raise":
-        raise ValueError(loc.outside_message("points", distances))
+        raise InputError(loc.outside_message("points", distances))
     r, c, v = [], [], []
     for bi, b in enumerate(mesh.blocks):
         sel = np.flatnonzero(loc.block == bi)

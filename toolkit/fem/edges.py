@@ -6,6 +6,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.mesh import Mesh
 
 __all__ = ["as_edges", "locate_edges", "edge_quadrature", "edge_integral"]
@@ -15,9 +16,9 @@ def as_edges(edges, label="edges") -> np.ndarray:
     """Check and return edge node tuples as an int64 array (m, 2) or (m, 3)."""
     e = np.asarray(edges)
     if e.ndim != 2 or e.shape[1] not in (2, 3) or len(e) == 0:
-        raise ValueError(f"{label}: expected a non-empty array of edge node tuples (m, 2) or (m, 3), got shape {e.shape}")
+        raise InputError(f"{label}: expected a non-empty array of edge node tuples (m, 2) or (m, 3), got shape {e.shape}")
     if not np.issubdtype(e.dtype, np.integer):
-        raise ValueError(f"{label}: edge node numbers must be integers")
+        raise InputError(f"{label}: edge node numbers must be integers")
     return e.astype(np.int64)
 
 
@@ -32,7 +33,7 @@ def locate_edges(mesh: Mesh, edges, label="edges") -> list[tuple[str, int, np.nd
     e = as_edges(edges, label)
     n = mesh.nnodes
     if e.min() < 0 or e.max() >= n:
-        raise ValueError(f"{label}: node number out of range 0..{n - 1}")
+        raise InputError(f"{label}: node number out of range 0..{n - 1}")
     found = np.zeros(len(e), dtype=bool)
     out = []
     for sense in (0, 1):
@@ -54,13 +55,13 @@ def locate_edges(mesh: Mesh, edges, label="edges") -> list[tuple[str, int, np.nd
                     bad = b.cells[cells, loc[2]] != e[rows, 2]
                     if bad.any():
                         r = int(rows[np.flatnonzero(bad)[0]])
-                        raise ValueError(f"{label}: edge {r} {e[r].tolist()} has a middle node that is not the "
+                        raise InputError(f"{label}: edge {r} {e[r].tolist()} has a middle node that is not the "
                                          f"middle node of that edge in its cell")
                 found[rows] = True
                 out.append((b.name, j, rows, cells))
     if not found.all():
         r = int(np.flatnonzero(~found)[0])
-        raise ValueError(f"{label}: edge {r} {e[r].tolist()} is not an edge of any cell "
+        raise InputError(f"{label}: edge {r} {e[r].tolist()} is not an edge of any cell "
                          f"({int((~found).sum())} such edges; give (corner, corner[, middle]) node tuples "
                          "with as many nodes as the element edges have)")
     return out
@@ -95,7 +96,7 @@ def edge_quadrature(mesh: Mesh, edges, npoints: int | None = None, label="edges"
         tang = np.einsum("gk,mki->mgi", dNds, xe)
         L = np.linalg.norm(tang, axis=-1)
         if (L <= 0).any():
-            raise ValueError(f"{label}: an edge of zero length in block {name}")
+            raise InputError(f"{label}: an edge of zero length in block {name}")
         normal = np.stack([tang[..., 1], -tang[..., 0]], axis=-1) / L[..., None]
         groups.append(dict(block=name, cells=cells, rows=rows, conn=conn, N=N, x=x, ds=w[None, :] * L,
                            normal=normal))
@@ -112,12 +113,12 @@ def edge_integral(mesh: Mesh, edges, values, weight=None, npoints=None) -> np.nd
     scalar = v.ndim == 1
     v = v.reshape(len(v), -1)
     if len(v) != mesh.nnodes:
-        raise ValueError(f"edge_integral: values have {len(v)} rows, the mesh has {mesh.nnodes} nodes")
+        raise InputError(f"edge_integral: values have {len(v)} rows, the mesh has {mesh.nnodes} nodes")
     total = np.zeros(v.shape[1])
     for g in edge_quadrature(mesh, edges, npoints):
         vq = np.einsum("gk,mkc->mgc", g["N"], v[g["conn"]])
         if not np.isfinite(vq).all():
-            raise ValueError("edge_integral: values along the edges are not finite")
+            raise InputError("edge_integral: values along the edges are not finite")
         wq = g["ds"] if weight is None else g["ds"] * np.asarray(weight(g["x"]), dtype=float)
         total += np.einsum("mgc,mg->c", vq, wq)
     return total[0] if scalar else total

@@ -10,6 +10,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.fem.edges import edge_quadrature
 from toolkit.fem.locations import edge_of, nodes_of
 
@@ -21,7 +22,7 @@ def _axis(along) -> int:
         return 0
     if along in (1, "y", "z"):
         return 1
-    raise ValueError(f"'along' must be 0/'x'/'r' or 1/'y'/'z', got {along!r}")
+    raise InputError(f"'along' must be 0/'x'/'r' or 1/'y'/'z', got {along!r}")
 
 
 @dataclass(frozen=True)
@@ -80,29 +81,29 @@ def load_vector(mesh, loads, edges, points, analysis, thickness) -> np.ndarray:
                 if isinstance(ld, Traction):
                     t0 = np.asarray(ld.value, dtype=float)
                     if t0.shape != (2,):
-                        raise ValueError(f"{label}: value must be a 2-vector (tx, ty), got {ld.value!r}")
+                        raise InputError(f"{label}: value must be a 2-vector (tx, ty), got {ld.value!r}")
                     t = np.broadcast_to(t0, x.shape).copy()
                     if ld.gradient is not None:
                         gr = np.asarray(ld.gradient, dtype=float)
                         if gr.shape != (2,):
-                            raise ValueError(f"{label}: gradient must be a 2-vector, got {ld.gradient!r}")
+                            raise InputError(f"{label}: gradient must be a 2-vector, got {ld.gradient!r}")
                         t = t + c[..., None] * gr
                 else:
                     p = float(ld.value) + float(ld.gradient) * c
                     t = -p[..., None] * g["normal"]
                 if not np.isfinite(t).all():
-                    raise ValueError(f"{label}: non-finite traction")
+                    raise InputError(f"{label}: non-finite traction")
                 w = g["ds"] * (2 * np.pi * x[..., 0] if analysis == "axisymmetric" else thickness)
                 fe = np.einsum("gk,mgi,mg->mki", g["N"], t, w)
                 np.add.at(f, g["conn"].ravel(), fe.reshape(-1, 2))
         elif isinstance(ld, PointLoad):
             node = nodes_of(ld.where, mesh, {}, points, label)
             if node.size != 1:
-                raise ValueError(f"{label}: a point load acts on one node, {ld.where!r} names {node.size}")
+                raise InputError(f"{label}: a point load acts on one node, {ld.where!r} names {node.size}")
             F = np.asarray(ld.force, dtype=float)
             if F.shape != (2,) or not np.isfinite(F).all():
-                raise ValueError(f"{label}: force must be a finite 2-vector, got {ld.force!r}")
+                raise InputError(f"{label}: force must be a finite 2-vector, got {ld.force!r}")
             f[node[0]] += F
         else:
-            raise ValueError(f"{label}: unknown load type; use Traction, Pressure or PointLoad")
+            raise InputError(f"{label}: unknown load type; use Traction, Pressure or PointLoad")
     return f

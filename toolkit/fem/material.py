@@ -24,6 +24,8 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = ["Material", "ANALYSES", "STRESS_COMPONENTS", "STRAIN_COMPONENTS", "TENSOR_INDEX", "materials_by_region"]
 
 ANALYSES = ("plane_stress", "plane_strain", "axisymmetric")
@@ -49,9 +51,9 @@ class Material:
 
     def __post_init__(self):
         if not (np.isfinite(self.E) and self.E > 0):
-            raise ValueError(f"Material {self.name!r}: E must be a positive number, got {self.E}")
+            raise InputError(f"Material {self.name!r}: E must be a positive number, got {self.E}")
         if not (np.isfinite(self.nu) and -1.0 < self.nu < 0.5):
-            raise ValueError(f"Material {self.name!r}: nu must lie in (-1, 0.5), got {self.nu}")
+            raise InputError(f"Material {self.name!r}: nu must lie in (-1, 0.5), got {self.nu}")
 
     @property
     def lame(self) -> tuple[float, float]:
@@ -71,7 +73,7 @@ class Material:
         if analysis == "axisymmetric":
             a = lam + 2 * mu
             return np.array([[a, lam, 0.0, lam], [lam, a, 0.0, lam], [0.0, 0.0, mu, 0.0], [lam, lam, 0.0, a]])
-        raise ValueError(f"analysis must be one of {ANALYSES}, got {analysis!r}")
+        raise InputError(f"analysis must be one of {ANALYSES}, got {analysis!r}")
 
 
 def materials_by_region(mesh, materials) -> dict:
@@ -81,16 +83,16 @@ def materials_by_region(mesh, materials) -> dict:
     if isinstance(materials, Material):
         return {r: materials for r in regions}
     if not isinstance(materials, dict) or not materials:
-        raise ValueError("materials must be a Material or a dict {region id: Material}")
+        raise InputError("materials must be a Material or a dict {region id: Material}")
     out = {}
     for k, v in materials.items():
         if not isinstance(v, Material):
-            raise ValueError(f"materials[{k!r}] is not a Material")
+            raise InputError(f"materials[{k!r}] is not a Material")
         out[int(k)] = v
     missing = [r for r in regions if r not in out]
     if missing:
-        raise ValueError(f"no material for region(s) {missing}; the mesh has regions {regions}")
+        raise InputError(f"no material for region(s) {missing}; the mesh has regions {regions}")
     extra = [r for r in out if r not in regions]
     if extra:
-        raise ValueError(f"materials given for region(s) {extra}, which the mesh does not have (regions {regions})")
+        raise InputError(f"materials given for region(s) {extra}, which the mesh does not have (regions {regions})")
     return out

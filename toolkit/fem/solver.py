@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.fields import GaussField
 from toolkit.core.linalg import assemble_csr, default_threads
 from toolkit.core.mesh import Mesh
@@ -111,15 +112,15 @@ def _model_settings(model) -> tuple[Mesh, dict]:
                                 loads=getattr(model, "loads", None),
                                 supports=getattr(model, "supports", None),
                                 material=getattr(model, "material", None))
-    raise ValueError("solve needs a Mesh or a model object with a .mesh")
+    raise InputError("solve needs a Mesh or a model object with a .mesh")
 
 
 def _check_plane_mesh(mesh):
     if mesh.dim != 2:
-        raise ValueError(f"solve handles 2D meshes; this mesh is {mesh.dim}D")
+        raise InputError(f"solve handles 2D meshes; this mesh is {mesh.dim}D")
     for b in mesh.blocks:
         if b.element.shape not in ("tri", "quad"):
-            raise ValueError(f"block {b.name}: not a 2D element type")
+            raise InputError(f"block {b.name}: not a 2D element type")
 
 
 def _resolve_thickness(mesh, analysis, thickness, model_thickness):
@@ -127,15 +128,15 @@ def _resolve_thickness(mesh, analysis, thickness, model_thickness):
     must lie at r >= 0."""
     if analysis == "axisymmetric":
         if thickness is not None:
-            raise ValueError("thickness does not apply to an axisymmetric analysis (integrals are over the full "
+            raise InputError("thickness does not apply to an axisymmetric analysis (integrals are over the full "
                              "ring, 2πr); leave it out")
         if (mesh.nodes[mesh.used_nodes(), 0] < -1e-12 * np.ptp(mesh.nodes[:, 0])).any():
-            raise ValueError("axisymmetric analysis: coordinate 0 is the radius and must be >= 0; "
+            raise InputError("axisymmetric analysis: coordinate 0 is the radius and must be >= 0; "
                              f"node {int(np.argmin(mesh.nodes[:, 0]))} has r = {mesh.nodes[:, 0].min():.4g}")
         return None
     thick = float(thickness if thickness is not None else (model_thickness if model_thickness is not None else 1.0))
     if not (np.isfinite(thick) and thick > 0):
-        raise ValueError(f"thickness must be positive, got {thick}")
+        raise InputError(f"thickness must be positive, got {thick}")
     return thick
 
 
@@ -148,16 +149,16 @@ def _resolve_problem(model, materials, analysis, thickness, loads, supports, rul
     points_all = {**own["points"], **(points or {})}
     analysis = analysis if analysis is not None else own["analysis"]
     if analysis not in ANALYSES:
-        raise ValueError(f"analysis must be one of {ANALYSES}, got {analysis!r}")
+        raise InputError(f"analysis must be one of {ANALYSES}, got {analysis!r}")
     thick = _resolve_thickness(mesh, analysis, thickness, own["thickness"])
     materials = materials if materials is not None else own["material"]
     if materials is None:
-        raise ValueError("no material: pass materials=Material(E, nu) or {region: Material}")
+        raise InputError("no material: pass materials=Material(E, nu) or {region: Material}")
     mats = materials_by_region(mesh, materials)
     loads = list(loads if loads is not None else (own["loads"] or []))
     supports = list(supports if supports is not None else (own["supports"] or []))
     if isinstance(rule, str) and rule not in ("full", "reduced"):
-        raise ValueError(f"rule must be 'full', 'reduced' or a point count, got {rule!r}")
+        raise InputError(f"rule must be 'full', 'reduced' or a point count, got {rule!r}")
     return _Problem(mesh, analysis, thick, mats, loads, supports, rule, edges_all, points_all)
 
 
@@ -168,9 +169,9 @@ def _constrain(p: _Problem, f, used, info):
     stiffness and get no unknowns (their displacement is NaN)."""
     cn, cd, cv = constraint_rows(p.mesh, p.supports, p.edges, p.points)
     if (~used[cn]).any():
-        raise ValueError(f"a support acts on node {int(cn[~used[cn]][0])}, which belongs to no cell")
+        raise InputError(f"a support acts on node {int(cn[~used[cn]][0])}, which belongs to no cell")
     if (np.abs(f[~used]) > 0).any():
-        raise ValueError(f"a load acts on node {int(np.flatnonzero((np.abs(f) > 0).any(1) & ~used)[0])}, "
+        raise InputError(f"a load acts on node {int(np.flatnonzero((np.abs(f) > 0).any(1) & ~used)[0])}, "
                          "which belongs to no cell")
     check_rigid_modes(p.mesh, cn, cd, p.analysis, used)
     T, up, kind, selection = constraint_transformation(p.mesh, cn, cd, cv)
@@ -225,13 +226,13 @@ def _factor_and_solve(Kr, br, info) -> np.ndarray:
         try:
             lu = splu(Kc, permc_spec="MMD_AT_PLUS_A", diag_pivot_thresh=0.0, options={"SymmetricMode": True})
         except RuntimeError as exc:
-            raise ValueError(f"the stiffness matrix is singular ({exc}): the model is a mechanism (parts held by "
+            raise InputError(f"the stiffness matrix is singular ({exc}): the model is a mechanism (parts held by "
                              "nothing, or zero-energy modes of reduced integration); check supports and rule") from None
         t2 = time.perf_counter()
         piv = np.abs(lu.U.diagonal())
         t2b = time.perf_counter()
         if not np.isfinite(piv).all() or piv.min() <= 1e-11 * piv.max():
-            raise ValueError(f"the stiffness matrix is singular (smallest pivot {piv.min():.3g} against largest "
+            raise InputError(f"the stiffness matrix is singular (smallest pivot {piv.min():.3g} against largest "
                              f"{piv.max():.3g}): the model is a mechanism (zero-energy modes of reduced integration, "
                              "or parts held by nothing); check supports and rule")
         t2c = time.perf_counter()
@@ -242,7 +243,7 @@ def _factor_and_solve(Kr, br, info) -> np.ndarray:
         bn = np.linalg.norm(br)
         info["relative_residual"] = float(res / bn) if bn > 0 else float(res)
         if bn > 0 and res > 1e-6 * bn:
-            raise ValueError(f"the solve did not settle (relative residual {res / bn:.3g}): the stiffness is "
+            raise InputError(f"the solve did not settle (relative residual {res / bn:.3g}): the stiffness is "
                              "ill-conditioned or singular; check supports, materials and the mesh")
     info["time_factorisation"] = t2 - t1
     info["time_solve"] = t3 - t2c

@@ -14,6 +14,7 @@ from typing import Callable
 import numpy as np
 import scipy.sparse as sp
 
+from toolkit.errors import InputError
 from toolkit.fem.edges import edge_quadrature
 from toolkit.fem.locations import edge_of, nodes_of
 
@@ -58,12 +59,12 @@ def _normal_dir(normal, label):
             if normal in ("x", "y", "r", "z") else _bad(f"{label}: normal must be 'x', 'y' or a 2-vector, got {normal!r}")
     n = np.asarray(normal, dtype=float)
     if n.shape != (2,) or not np.isfinite(n).all() or np.linalg.norm(n) == 0:
-        raise ValueError(f"{label}: normal must be a non-zero 2-vector, got {normal!r}")
+        raise InputError(f"{label}: normal must be a non-zero 2-vector, got {normal!r}")
     return n / np.linalg.norm(n)
 
 
 def _bad(msg):
-    raise ValueError(msg)
+    raise InputError(msg)
 
 
 def constraint_rows(mesh, supports, edges, points):
@@ -82,7 +83,7 @@ def constraint_rows(mesh, supports, edges, points):
                 nrm = np.tile(_normal_dir(s.normal, label), (len(nodes), 1))
             else:
                 if isinstance(s.where, str) and s.where in points and s.where not in edges:
-                    raise ValueError(f"{label}: a roller at point {s.where!r} needs normal='x', 'y' or a vector")
+                    raise InputError(f"{label}: a roller at point {s.where!r} needs normal='x', 'y' or a vector")
                 e = edge_of(s.where, edges, label)
                 acc = np.zeros((mesh.nnodes, 2))
                 for g in edge_quadrature(mesh, e, npoints=2, label=label):
@@ -92,7 +93,7 @@ def constraint_rows(mesh, supports, edges, points):
                 nrm = acc[nodes]
                 ln = np.linalg.norm(nrm, axis=1)
                 if (ln < 1e-8).any():
-                    raise ValueError(f"{label}: the edge normal is undefined at node {int(nodes[np.argmin(ln)])} "
+                    raise InputError(f"{label}: the edge normal is undefined at node {int(nodes[np.argmin(ln)])} "
                                      "(edges folding back); give normal=...")
                 nrm = nrm / ln[:, None]
             nrm = np.where(np.abs(nrm) < 1e-12, 0.0, nrm)
@@ -101,19 +102,19 @@ def constraint_rows(mesh, supports, edges, points):
         elif isinstance(s, Displacement):
             nodes = nodes_of(s.where, mesh, edges, points, label)
             if s.ux is None and s.uy is None:
-                raise ValueError(f"{label}: give ux and/or uy")
+                raise InputError(f"{label}: give ux and/or uy")
             for comp, val in ((0, s.ux), (1, s.uy)):
                 if val is None:
                     continue
                 v = np.asarray(val(X[nodes]) if callable(val) else np.full(len(nodes), float(val)), dtype=float)
                 if v.shape != (len(nodes),) or not np.isfinite(v).all():
-                    raise ValueError(f"{label}: u{'xy'[comp]} must give {len(nodes)} finite values")
+                    raise InputError(f"{label}: u{'xy'[comp]} must give {len(nodes)} finite values")
                 d = np.zeros((len(nodes), 2)); d[:, comp] = 1.0
                 nodes_l.append(nodes); dirs_l.append(d); vals_l.append(v)
         else:
-            raise ValueError(f"{label}: unknown support type; use Fixed, Roller or Displacement")
+            raise InputError(f"{label}: unknown support type; use Fixed, Roller or Displacement")
     if not nodes_l:
-        raise ValueError("the model has no supports: it is free to move as a rigid body; add Fixed, Roller "
+        raise InputError("the model has no supports: it is free to move as a rigid body; add Fixed, Roller "
                          "or Displacement supports")
     return np.concatenate(nodes_l), np.concatenate(dirs_l), np.concatenate(vals_l)
 
@@ -143,7 +144,7 @@ def constraint_transformation(mesh, nodes, dirs, vals):
     bad = np.abs(resid) > max(scale, 1e-9 * float(np.abs(vals).max(initial=0.0)))
     if bad.any():
         k = int(np.flatnonzero(bad)[0])
-        raise ValueError(f"conflicting supports at node {int(nodes[k])}: the prescribed displacements cannot all hold "
+        raise InputError(f"conflicting supports at node {int(nodes[k])}: the prescribed displacements cannot all hold "
                          f"(mismatch {resid[k]:.3g})")
     kind = np.zeros(n, dtype=np.int64)
     kind[con] = rank
@@ -210,5 +211,5 @@ def check_rigid_modes(mesh, nodes, dirs, analysis, used):
                                        for c, nm in zip(v, names) if abs(c) > 1e-9))
             where = f"part {part + 1} of {ncomp} (nodes {int(members[0])}..., {members.size} nodes)" if ncomp > 1 \
                 else "the model"
-            raise ValueError(f"{where} is not supported against rigid-body motion: free mode(s) "
+            raise InputError(f"{where} is not supported against rigid-body motion: free mode(s) "
                              f"{'; '.join(desc)}. Add supports (Fixed, Roller, Displacement) that stop it.")

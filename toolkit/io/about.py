@@ -3,6 +3,7 @@
 their check, and the point set it declares for an element type."""
 from __future__ import annotations
 
+from toolkit.errors import InputError
 from toolkit.core.elements import get_element
 
 __all__ = ["FORMAT", "ABOUT_KEYS", "check_about", "declared_points"]
@@ -19,12 +20,12 @@ def check_about(about: dict, where: str) -> dict:
     by element type, ``units`` a string or an object of strings; ``where``
     names the source in the messages."""
     if not isinstance(about, dict):
-        raise ValueError(f"{where}: must be a JSON object {{...}}, got {type(about).__name__}")
+        raise InputError(f"{where}: must be a JSON object {{...}}, got {type(about).__name__}")
     for k in about:
         if k not in ABOUT_KEYS:
-            raise ValueError(f"{where}: unknown key {k!r}; known keys: {', '.join(ABOUT_KEYS)}")
+            raise InputError(f"{where}: unknown key {k!r}; known keys: {', '.join(ABOUT_KEYS)}")
     if "format" in about and about["format"] != FORMAT:
-        raise ValueError(f"{where}: format {about['format']!r} is not {FORMAT!r}")
+        raise InputError(f"{where}: format {about['format']!r} is not {FORMAT!r}")
     pts = about.get("points", "full")
     specs = pts.values() if isinstance(pts, dict) else [pts]
     if isinstance(pts, dict):
@@ -32,20 +33,20 @@ def check_about(about: dict, where: str) -> dict:
             try:
                 get_element(t)
             except ValueError as e:
-                raise ValueError(f"{where}: 'points': {e}") from None
+                raise InputError(f"{where}: 'points': {e}") from None
     for s in specs:
         ok = s in ("full", "reduced") or (isinstance(s, int) and not isinstance(s, bool) and s > 0)
         if not ok:
-            raise ValueError(f"{where}: 'points' must be 'full', 'reduced', a point count, or an object "
+            raise InputError(f"{where}: 'points' must be 'full', 'reduced', a point count, or an object "
                              f"{{element type: one of those}}; got {s!r}")
     units = about.get("units", {})
     if not (isinstance(units, str) or (isinstance(units, dict) and all(
             isinstance(k, str) and isinstance(v, str) for k, v in units.items()))):
-        raise ValueError(f"{where}: 'units' must be a string or an object of strings, e.g. "
+        raise InputError(f"{where}: 'units' must be a string or an object of strings, e.g. "
                          '{"length": "mm", "stress": "MPa"}')
     for k in ("description", "name"):
         if k in about and not isinstance(about[k], str):
-            raise ValueError(f"{where}: {k!r} must be a string")
+            raise InputError(f"{where}: {k!r} must be a string")
     return about
 
 

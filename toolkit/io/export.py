@@ -9,6 +9,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import ELEMENTS
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
@@ -29,7 +30,7 @@ def write_nodal_csv(path, nodal: NodalField):
     (node, region) value; ``node`` is the node id of the mesh, ``region`` the
     region id (``-1``: smoothed across regions).  Lossless float format."""
     if not isinstance(nodal, NodalField):
-        raise ValueError("write_nodal_csv needs a NodalField")
+        raise InputError("write_nodal_csv needs a NodalField")
     check_component_names(nodal.components)
     cols = [int_cells(nodal.mesh.node_ids[nodal.node]), int_cells(nodal.region)]
     cols += [float_cells(nodal.values[:, j]) for j in range(len(nodal.components))]
@@ -61,13 +62,13 @@ def write_vtu(path, mesh: Mesh, nodal: NodalField | None = None, field: GaussFie
     import meshio
 
     if not isinstance(mesh, Mesh):
-        raise ValueError("write_vtu needs a Mesh")
+        raise InputError("write_vtu needs a Mesh")
     for f, kind in ((nodal, NodalField), (field, GaussField)):
         if f is not None:
             if not isinstance(f, kind):
-                raise ValueError(f"write_vtu: expected a {kind.__name__}, got {type(f).__name__}")
+                raise InputError(f"write_vtu: expected a {kind.__name__}, got {type(f).__name__}")
             if f.mesh is not mesh:
-                raise ValueError(f"write_vtu: the {kind.__name__} belongs to another mesh")
+                raise InputError(f"write_vtu: the {kind.__name__} belongs to another mesh")
     cells = {b.name: b.cells for b in mesh.blocks}
     point_ids = mesh.node_ids
     pts = mesh.nodes
@@ -108,7 +109,7 @@ def _region_points(mesh, nodal):
     R = mesh.regions
     key = nodal.node * len(R) + np.searchsorted(R, nodal.region)
     if (nodal.region < 0).any():
-        raise ValueError("write_vtu: the nodal field mixes smoothed (region -1) and per-region rows")
+        raise InputError("write_vtu: the nodal field mixes smoothed (region -1) and per-region rows")
     o = np.argsort(key)
     skey = key[o]
     cells = {}
@@ -117,7 +118,7 @@ def _region_points(mesh, nodal):
         p = np.minimum(np.searchsorted(skey, k), len(skey) - 1)
         if (skey[p] != k).any():
             c = int(np.flatnonzero((skey[p] != k).any(axis=1))[0])
-            raise ValueError(f"write_vtu: the nodal field has no value for a node of {b.label(c)} in its region")
+            raise InputError(f"write_vtu: the nodal field has no value for a node of {b.label(c)} in its region")
         cells[b.name] = o[p]
     unused = np.flatnonzero(np.bincount(nodal.node, minlength=n) == 0)
     pts = np.concatenate([mesh.nodes[nodal.node], mesh.nodes[unused]])

@@ -8,6 +8,8 @@ import os
 import tempfile
 from pathlib import Path
 
+from toolkit.errors import InputError
+
 __all__ = ["read_text", "temp_beside", "atomic_write"]
 
 
@@ -17,9 +19,9 @@ def read_text(path: Path) -> str:
     try:
         return path.read_text(encoding="utf-8-sig")
     except UnicodeDecodeError as e:
-        raise ValueError(f"{path}: not UTF-8 text (byte {e.start}: {e.reason})") from None
+        raise InputError(f"{path}: not UTF-8 text (byte {e.start}: {e.reason})") from None
     except OSError as e:
-        raise ValueError(f"{path}: cannot be read ({e.strerror or e})") from None
+        raise InputError(f"{path}: cannot be read ({e.strerror or e})") from None
 
 
 def temp_beside(path: Path, suffix: str):

@@ -28,6 +28,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import ELEMENTS, QuadratureRule, get_element
 from toolkit.core.fields import GaussField
 from toolkit.core.mesh import Mesh
@@ -59,10 +60,10 @@ def _nodes_schema(path, names):
     low = [n.lower() for n in names]
     for n, l in zip(names, low):
         if l not in ("node", "x", "y", "z"):
-            raise ValueError(f"{path}: unexpected column {n!r}; the header must be node,x,y or node,x,y,z")
+            raise InputError(f"{path}: unexpected column {n!r}; the header must be node,x,y or node,x,y,z")
     for need in ("node", "x", "y"):
         if need not in low:
-            raise ValueError(f"{path}: missing column {need!r}; the header must be node,x,y or node,x,y,z")
+            raise InputError(f"{path}: missing column {need!r}; the header must be node,x,y or node,x,y,z")
     return ["i" if l == "node" else "f" for l in low]
 
 
@@ -85,15 +86,15 @@ def _elements_schema(path, names):
             kinds.append("n")
             numbers.append(_node_column_number(l))
         else:
-            raise ValueError(f"{path}: unexpected column {n!r}; the header must be "
+            raise InputError(f"{path}: unexpected column {n!r}; the header must be "
                              "element,type,region,n1,...,nK")
     for need in ("element", "type"):
         if need not in low:
-            raise ValueError(f"{path}: missing column {need!r}; the header must be element,type,region,n1,...,nK")
+            raise InputError(f"{path}: missing column {need!r}; the header must be element,type,region,n1,...,nK")
     if not numbers:
-        raise ValueError(f"{path}: missing node columns n1,...,nK")
+        raise InputError(f"{path}: missing node columns n1,...,nK")
     if sorted(numbers) != list(range(1, len(numbers) + 1)):
-        raise ValueError(f"{path}: node columns must be n1..n{len(numbers)} without gaps, got "
+        raise InputError(f"{path}: node columns must be n1..n{len(numbers)} without gaps, got "
                          f"{', '.join('n' + str(k) for k in sorted(numbers))}")
     return kinds
 
@@ -102,11 +103,11 @@ def _gauss_schema(path, names):
     low = [n.lower() for n in names]
     for need in ("element", "point"):
         if need not in low:
-            raise ValueError(f"{path}: missing column {need!r}; the header must be "
+            raise InputError(f"{path}: missing column {need!r}; the header must be "
                              "element,point[,x,y[,z]],<components>")
     comps = [n for n, l in zip(names, low) if l not in RESERVED]
     if not comps:
-        raise ValueError(f"{path}: no component columns (e.g. sxx,syy,sxy) after element,point[,x,y[,z]]")
+        raise InputError(f"{path}: no component columns (e.g. sxx,syy,sxy) after element,point[,x,y[,z]]")
     return ["i" if l in ("element", "point") else "f" for l in low]
 
 
@@ -127,7 +128,7 @@ def read_about(path) -> dict:
     try:
         about = json.loads(read_text(f))
     except json.JSONDecodeError as e:
-        raise ValueError(f"{f}: not valid JSON (line {e.lineno}, column {e.colno}: {e.msg})") from None
+        raise InputError(f"{f}: not valid JSON (line {e.lineno}, column {e.colno}: {e.msg})") from None
     return check_about(about, str(f))
 
 
@@ -138,11 +139,11 @@ def _results_path(path) -> Path:
     path = Path(path)
     if path.suffix.lower() == ".npz":
         if not path.is_file():
-            raise ValueError(f"{path}: no such .npz file")
+            raise InputError(f"{path}: no such .npz file")
     elif not path.is_dir():
         if path.exists():
-            raise ValueError(f"{path}: not a result folder or an .npz file")
-        raise ValueError(f"{path}: no such result folder")
+            raise InputError(f"{path}: not a result folder or an .npz file")
+        raise InputError(f"{path}: no such result folder")
     return path
 
 
@@ -178,7 +179,7 @@ def read_results(path, point_tol: float = POINT_TOL):
     of the type.  Values are reordered by that match, never by row order.
     """
     if not (0 < point_tol < 0.5):
-        raise ValueError(f"point_tol must lie in (0, 0.5), got {point_tol}")
+        raise InputError(f"point_tol must lie in (0, 0.5), got {point_tol}")
     path = _results_path(path)
     if path.suffix.lower() == ".npz":
         return read_npz(path)
@@ -200,7 +201,7 @@ def _read_mesh_folder(path: Path):
     eids = et_.col("element")
     dup = first_duplicate(eids)
     if dup:
-        raise ValueError(f"{et_.where(dup[1])}: duplicate element id {int(eids[dup[1]])} "
+        raise InputError(f"{et_.where(dup[1])}: duplicate element id {int(eids[dup[1]])} "
                          f"(also on row {dup[0] + 1})")
     regions = et_.col("region") if "region" in et_ else np.zeros(et_.nrows, dtype=np.int64)
     K = sum(1 for n in et_.names if _node_column_number(n) is not None)
@@ -225,7 +226,7 @@ def _read_mesh_folder(path: Path):
     try:
         mesh = Mesh(xyz, blocks, regions=regs, node_ids=node_ids, cell_ids=cids)
     except ValueError as e:
-        raise ValueError(f"{efile}: {e}") from None
+        raise InputError(f"{efile}: {e}") from None
     return mesh, {"elements": et_, "element_rows": erows}
 
 
@@ -238,12 +239,12 @@ def _read_nodes(nfile: Path):
     xyz = np.stack([nt.col(c) for c in ("x", "y", "z")[:dim]], axis=1)
     dup = first_duplicate(node_ids)
     if dup:
-        raise ValueError(f"{nt.where(dup[1])}: duplicate node id {int(node_ids[dup[1]])} "
+        raise InputError(f"{nt.where(dup[1])}: duplicate node id {int(node_ids[dup[1]])} "
                          f"(also on row {dup[0] + 1})")
     bad = first_true(~np.isfinite(xyz).all(axis=1))
     if bad is not None:
         a = int(np.flatnonzero(~np.isfinite(xyz[bad]))[0])
-        raise ValueError(f"{nt.where(bad)}: coordinate {'xyz'[a]} of node {int(node_ids[bad])} is {xyz[bad, a]}")
+        raise InputError(f"{nt.where(bad)}: coordinate {'xyz'[a]} of node {int(node_ids[bad])} is {xyz[bad, a]}")
     return nt, node_ids, xyz
 
 
@@ -254,11 +255,11 @@ def _element_types(et_: Table):
     types = []
     for tok, r in zip(tokens, first):
         if not str(tok).strip():
-            raise ValueError(f"{et_.where(r)}, column 'type': empty cell, expected an element type")
+            raise InputError(f"{et_.where(r)}, column 'type': empty cell, expected an element type")
         try:
             types.append(get_element(str(tok).strip()))
         except ValueError:
-            raise ValueError(f"{et_.where(r)}: unknown element type {str(tok).strip()!r}; known: "
+            raise InputError(f"{et_.where(r)}: unknown element type {str(tok).strip()!r}; known: "
                              f"{', '.join(sorted(ELEMENTS.keys()))}") from None
     return types, first, inv
 
@@ -273,17 +274,17 @@ def _element_nodes(et_: Table, et, rows, nodecols, sorted_ids, nt: Table, dim: i
     k = et.nnodes
     if et.dim != dim:
         r = int(rows[0])
-        raise ValueError(f"{et_.where(r)}: element {int(eids[r])} is a {et.name} ({et.dim}D) but "
+        raise InputError(f"{et_.where(r)}: element {int(eids[r])} is a {et.name} ({et.dim}D) but "
                          f"{nfile} gives {dim}D coordinates ({', '.join(nt.names)})")
     if K < k:
         r = int(rows[0])
-        raise ValueError(f"{et_.where(r)}: a {et.name} needs {k} node columns, the header has n1..n{K}")
+        raise InputError(f"{et_.where(r)}: a {et.name} needs {k} node columns, the header has n1..n{K}")
     gv = nodecols[rows] != EMPTY
     badrow = first_true(~gv[:, :k].all(axis=1) | gv[:, k:].any(axis=1))
     if badrow is not None:
         r = int(rows[badrow])
         cnt = int(gv[badrow].sum())
-        raise ValueError(f"{et_.where(r)}: element {int(eids[r])} is a {et.name} with {k} nodes, but the row "
+        raise InputError(f"{et_.where(r)}: element {int(eids[r])} is a {et.name} with {k} nodes, but the row "
                          f"gives {cnt} node ids" + ("" if cnt != k else " (not in n1..n%d)" % k))
     ids = nodecols[rows, :k]
     pos = np.searchsorted(sorted_ids, ids)
@@ -292,14 +293,14 @@ def _element_nodes(et_: Table, et, rows, nodecols, sorted_ids, nt: Table, dim: i
     if missing.any():
         i, j = (int(a[0]) for a in np.nonzero(missing))
         r = int(rows[i])
-        raise ValueError(f"{et_.where(r)}: node id {int(ids[i, j])} (column n{j + 1}) of element "
+        raise InputError(f"{et_.where(r)}: node id {int(ids[i, j])} (column n{j + 1}) of element "
                          f"{int(eids[r])} is not in {nfile}")
     srt = np.sort(ids, axis=1)
     rep = first_true((srt[:, 1:] == srt[:, :-1]).any(axis=1))
     if rep is not None:
         r = int(rows[rep])
         twice = int(srt[rep, 1:][srt[rep, 1:] == srt[rep, :-1]][0])
-        raise ValueError(f"{et_.where(r)}: element {int(eids[r])} lists node {twice} twice")
+        raise InputError(f"{et_.where(r)}: element {int(eids[r])} lists node {twice} twice")
     return pos
 
 
@@ -332,7 +333,7 @@ def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
     try:
         return GaussField(mesh, values, g.comps, points=points, name=about.get("name", "field"))
     except ValueError as e:
-        raise ValueError(f"{gfile}: {e}") from None
+        raise InputError(f"{gfile}: {e}") from None
 
 
 def _read_gauss_table(gfile: Path, dim: int) -> _GaussRows:
@@ -342,7 +343,7 @@ def _read_gauss_table(gfile: Path, dim: int) -> _GaussRows:
     gt = read_csv(gfile, _gauss_schema)
     coord_names = [c for c in ("x", "y", "z") if c in gt]
     if coord_names and coord_names != ["x", "y", "z"][:dim]:
-        raise ValueError(f"{gfile}: coordinate columns {','.join(coord_names)} do not fit a {dim}D model; "
+        raise InputError(f"{gfile}: coordinate columns {','.join(coord_names)} do not fit a {dim}D model; "
                          f"give {','.join('xyz'[:dim])} or no coordinates")
     comps = [n for n in gt.names if n.lower() not in RESERVED]
     elem = gt.col("element")
@@ -351,18 +352,18 @@ def _read_gauss_table(gfile: Path, dim: int) -> _GaussRows:
     bad = first_true(~np.isfinite(vals).all(axis=1))
     if bad is not None:
         a = int(np.flatnonzero(~np.isfinite(vals[bad]))[0])
-        raise ValueError(f"{gt.where(bad)}: {comps[a]} is {vals[bad, a]} at point {int(point[bad])} of "
+        raise InputError(f"{gt.where(bad)}: {comps[a]} is {vals[bad, a]} at point {int(point[bad])} of "
                          f"element {int(elem[bad])}")
     X = None
     if coord_names:
         X = np.stack([gt.col(c) for c in coord_names], axis=1)
         bad = first_true(~np.isfinite(X).all(axis=1))
         if bad is not None:
-            raise ValueError(f"{gt.where(bad)}: coordinates {X[bad].tolist()} of point {int(point[bad])} of "
+            raise InputError(f"{gt.where(bad)}: coordinates {X[bad].tolist()} of point {int(point[bad])} of "
                              f"element {int(elem[bad])} are not finite")
     bad = first_true(point < 1)
     if bad is not None:
-        raise ValueError(f"{gt.where(bad)}: point number {int(point[bad])} of element {int(elem[bad])}; "
+        raise InputError(f"{gt.where(bad)}: point number {int(point[bad])} of element {int(elem[bad])}; "
                          "point numbers start at 1")
     return _GaussRows(gt, comps, elem, point, vals, X)
 
@@ -378,7 +379,7 @@ def _element_of_rows(g: _GaussRows, mesh: Mesh, info):
     pos = np.minimum(np.searchsorted(sids, g.elem), len(sids) - 1)
     bad = first_true(sids[pos] != g.elem)
     if bad is not None:
-        raise ValueError(f"{g.table.where(bad)}: element {int(g.elem[bad])} is not in {info['elements'].path}")
+        raise InputError(f"{g.table.where(bad)}: element {int(g.elem[bad])} is not in {info['elements'].path}")
     return all_blk[o][pos], all_cell[o][pos]
 
 
@@ -393,12 +394,12 @@ def _block_values(g: _GaussRows, mesh, b, rows, cell, info, about, tol, afile):
     try:
         declared_rule = et.rule(declared)
     except ValueError as e:
-        raise ValueError(f"{afile}: {e}") from None
+        raise InputError(f"{afile}: {e}") from None
     if g.X is None:
         bad = first_true(pt > declared_rule.npoints)
         if bad is not None:
             r = int(rows[bad])
-            raise ValueError(f"{g.table.where(r)}: point {int(pt[bad])} of element {int(g.elem[r])}, but a "
+            raise InputError(f"{g.table.where(r)}: point {int(pt[bad])} of element {int(g.elem[r])}, but a "
                              f"{et.name} at the {declared} rule ({declared_rule.name}) has points "
                              f"1..{declared_rule.npoints}"
                              + ("" if said else f"; if the values sit at another rule, say so in {ABOUT_FILE} "
@@ -419,7 +420,7 @@ def _points_per_cell(g: _GaussRows, info, b, cell):
     if empty is not None:
         gfile = g.table.path
         r = int(info["element_rows"][b.name][empty])
-        raise ValueError(f"{gfile}: element {int(b.ids[empty])} ({info['elements'].path}, row {r + 1}) "
+        raise InputError(f"{gfile}: element {int(b.ids[empty])} ({info['elements'].path}, row {r + 1}) "
                          f"has no rows in {gfile.name}")
     return counts
 
@@ -433,7 +434,7 @@ def _point_order(g: _GaussRows, rows, cell, pt):
         later = rows[order[d + 1]]
         k = int(np.argmin(later))
         r1, r0 = int(later[k]), int(rows[order[d[k]]])
-        raise ValueError(f"{g.table.where(r1)}: point {int(g.point[r1])} of element {int(g.elem[r1])} is given "
+        raise InputError(f"{g.table.where(r1)}: point {int(g.point[r1])} of element {int(g.elem[r1])} is given "
                          f"twice (also on row {r0 + 1})")
     return order
 
@@ -447,7 +448,7 @@ def _numbered_values(g: _GaussRows, info, b, rows, cell, pt, counts, order, rule
         have = set(pt[cell == badc].tolist())
         miss = [p for p in range(1, q + 1) if p not in have]
         r = int(info["element_rows"][b.name][badc])
-        raise ValueError(f"{g.table.path}: element {int(b.ids[badc])} ({info['elements'].path}, row {r + 1}) has "
+        raise InputError(f"{g.table.path}: element {int(b.ids[badc])} ({info['elements'].path}, row {r + 1}) has "
                          f"{counts[badc]} of its {q} points ({rule.name}); missing point(s) "
                          f"{', '.join(map(str, miss[:10]))}")
     srt = rows[order]
@@ -462,17 +463,17 @@ def _located_values(g: _GaussRows, mesh, b, rows, pt, counts, order, tol):
     gfile = g.table.path
     q = int(counts[0])
     if q > MAX_POINTS:
-        raise ValueError(f"{gfile}: element {int(b.ids[0])} has {q} rows; more than {MAX_POINTS} integration "
+        raise InputError(f"{gfile}: element {int(b.ids[0])} has {q} rows; more than {MAX_POINTS} integration "
                          "points per element are not supported")
     badc = first_true(counts != q)
     if badc is not None:
-        raise ValueError(f"{gfile}: element {int(b.ids[badc])} has {counts[badc]} points, but element "
+        raise InputError(f"{gfile}: element {int(b.ids[badc])} has {counts[badc]} points, but element "
                          f"{int(b.ids[0])} (the first {et.name}) has {q}: every element of a type must carry "
                          "the same set of points")
     bad = first_true(pt > q)
     if bad is not None:
         r = int(rows[bad])
-        raise ValueError(f"{g.table.where(r)}: point {int(pt[bad])} of element {int(g.elem[r])}; the {q} points "
+        raise InputError(f"{g.table.where(r)}: point {int(pt[bad])} of element {int(g.elem[r])}; the {q} points "
                          f"of each {et.name} are numbered 1..{q}")
     srt = rows[order].reshape(len(b), q)
     spec, assign = match_points(g.table, mesh, b, g.X[srt], srt, tol)
@@ -488,7 +489,7 @@ def _check_declared(afile, gfile, et, spec, declared, want, q):
     got = spec if isinstance(spec, QuadratureRule) else (et.rule(spec) if isinstance(spec, str) else None)
     if got is None or got.npoints != want.npoints or not np.allclose(got.points, want.points, atol=1e-12):
         label = got.name if got is not None else f"{q} points that form no stored rule"
-        raise ValueError(f"{afile}: says the {et.name} values sit at the {declared!r} rule ({want.name}), "
+        raise InputError(f"{afile}: says the {et.name} values sit at the {declared!r} rule ({want.name}), "
                          f"but the coordinates in {gfile.name} put them at {label}")
 
 
@@ -500,7 +501,7 @@ def check_component_names(components):
     quotes, line breaks or surrounding spaces, and none of :data:`RESERVED`."""
     for c in components:
         if (not c or c != c.strip() or any(ch in c for ch in ',"\n\r') or c.lower() in RESERVED):
-            raise ValueError(f"component name {c!r} cannot be written to a CSV header: names must be non-empty, "
+            raise InputError(f"component name {c!r} cannot be written to a CSV header: names must be non-empty, "
                              f"without commas, quotes, line breaks or surrounding spaces, and not one of "
                              f"{', '.join(RESERVED)}")
 
@@ -544,15 +545,15 @@ def write_results(path, mesh: Mesh, field: GaussField, coordinates: bool = True,
     """
     path = Path(path)
     if not isinstance(mesh, Mesh) or not isinstance(field, GaussField):
-        raise ValueError("write_results needs a Mesh and a GaussField")
+        raise InputError("write_results needs a Mesh and a GaussField")
     if field.mesh is not mesh:
-        raise ValueError("the field belongs to another mesh than the one given")
+        raise InputError("the field belongs to another mesh than the one given")
     meta = _about_record(mesh, field, about, coordinates)
     if path.suffix.lower() == ".npz":
         write_npz(path, mesh, field, meta)
         return path
     if path.exists() and not path.is_dir():
-        raise ValueError(f"{path}: exists and is not a folder")
+        raise InputError(f"{path}: exists and is not a folder")
     check_component_names(field.components)
     _write_nodes(path / NODES_FILE, mesh)
     _write_elements(path / ELEMENTS_FILE, mesh)
@@ -567,7 +568,7 @@ def _about_record(mesh, field, about, coordinates):
     meta = dict(about or {})
     for k in ("format", "points", "name"):
         if k in meta:
-            raise ValueError(f"about: {k!r} is written from the model; give only 'units' and 'description'")
+            raise InputError(f"about: {k!r} is written from the model; give only 'units' and 'description'")
     check_about(meta, "about")
     meta["format"] = FORMAT
     if field.name != "field":
@@ -576,7 +577,7 @@ def _about_record(mesh, field, about, coordinates):
     if pts is not None:
         meta["points"] = pts
     elif not coordinates:
-        raise ValueError("the field sits at points that form no stored Gauss rule; write it with coordinates=True")
+        raise InputError("the field sits at points that form no stored Gauss rule; write it with coordinates=True")
     return meta
 
 

@@ -8,6 +8,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.fields import GaussField
 from toolkit.core.mesh import Mesh
 from toolkit.io.about import FORMAT, check_about
@@ -27,9 +28,9 @@ class _open_npz:
         try:
             self.z = np.load(self.path, allow_pickle=False)
             if not hasattr(self.z, "files"):
-                raise ValueError("not an .npz archive")
+                raise InputError("not an .npz archive")
         except Exception as e:
-            raise ValueError(f"{self.path}: not a readable .npz results file ({e})") from None
+            raise InputError(f"{self.path}: not a readable .npz results file ({e})") from None
         return self
 
     def __exit__(self, *exc):
@@ -37,11 +38,11 @@ class _open_npz:
 
     def get(self, key):
         if key not in self.z.files:
-            raise ValueError(f"{self.path}: missing array {key!r}")
+            raise InputError(f"{self.path}: missing array {key!r}")
         try:
             return self.z[key]
         except Exception as e:
-            raise ValueError(f"{self.path}: array {key!r} cannot be read ({e})") from None
+            raise InputError(f"{self.path}: array {key!r} cannot be read ({e})") from None
 
 
 def _npz_about(zz, path):
@@ -49,7 +50,7 @@ def _npz_about(zz, path):
     try:
         about = json.loads(str(raw[()]))
     except (json.JSONDecodeError, TypeError, IndexError, ValueError) as e:
-        raise ValueError(f"{path}: array 'about' is not a JSON text ({e})") from None
+        raise InputError(f"{path}: array 'about' is not a JSON text ({e})") from None
     return check_about(about, f"{path} (about)")
 
 
@@ -64,7 +65,7 @@ def read_npz(path: Path):
     with _open_npz(path) as zz:
         fmt = str(zz.get("format")[()]) if "format" in zz.z.files else None
         if fmt != FORMAT:
-            raise ValueError(f"{path}: format {fmt!r} is not {FORMAT!r}")
+            raise InputError(f"{path}: format {fmt!r} is not {FORMAT!r}")
         about = _npz_about(zz, path)
         names = [str(n) for n in zz.get("blocks").ravel()]
         comps = [str(c) for c in zz.get("components").ravel()]
@@ -87,7 +88,7 @@ def read_npz(path: Path):
             spec[b.name] = rule_spec(et, rule) if same else p
         field = GaussField(mesh, vals, comps, points=spec, name=about.get("name", "field"))
     except ValueError as e:
-        raise ValueError(f"{path}: {e}") from None
+        raise InputError(f"{path}: {e}") from None
     return mesh, field
 
 

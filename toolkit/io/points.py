@@ -8,6 +8,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.arrays import chunk_slices
 from toolkit.core.mesh import inverse_map
 
@@ -110,7 +111,7 @@ def _match_natural(gt, mesh, b, rule, X, rows, tol):
     try:
         xi, conv = inverse_map(et, np.repeat(xe, q, axis=0), xflat)
     except ValueError as e:
-        raise ValueError(f"{gt.path}: could not map the {b.name} points to natural coordinates ({e})") from None
+        raise InputError(f"{gt.path}: could not map the {b.name} points to natural coordinates ({e})") from None
     inside = conv & et.contains(xi, tol=tol)
     if not inside.all():
         bad = np.flatnonzero(~inside)
@@ -119,7 +120,7 @@ def _match_natural(gt, mesh, b, rule, X, rows, tol):
         c = i // q
         how = (f"natural coordinates ({', '.join(f'{v:.4g}' for v in xi[i])})" if conv[i]
                else "the inverse map found no natural coordinates")
-        raise ValueError(f"{gt.where(r)}: point {int(gt.col('point')[r])} of element {int(b.ids[c])} at "
+        raise InputError(f"{gt.where(r)}: point {int(gt.col('point')[r])} of element {int(b.ids[c])} at "
                          f"({', '.join(f'{v:.6g}' for v in xflat[i])}) lies outside the element ({how})")
     XI = xi.reshape(C, q, dim)
     ref = XI[0]                       # the first cell's points, by point number
@@ -137,12 +138,12 @@ def _match_natural(gt, mesh, b, rule, X, rows, tol):
         if nomatch[c].any():
             j = int(np.flatnonzero(nomatch[c])[0])
             r = int(rows[c, j])
-            raise ValueError(f"{gt.where(r)}: point {int(gt.col('point')[r])} of element {int(b.ids[c])} sits at "
+            raise InputError(f"{gt.where(r)}: point {int(gt.col('point')[r])} of element {int(b.ids[c])} sits at "
                              f"natural coordinates ({', '.join(f'{v:.4g}' for v in XI[c, j])}), which is none of the "
                              f"points element {int(b.ids[0])} (the first {et.name}) carries; every element of a type "
                              "must carry the same set of points")
         r = int(rows[c, 0])
-        raise ValueError(f"{gt.where(r)}: the points of element {int(b.ids[c])} do not match those of element "
+        raise InputError(f"{gt.where(r)}: the points of element {int(b.ids[c])} do not match those of element "
                          f"{int(b.ids[0])} (the first {et.name}) one to one (two points at the same place?); every "
                          "element of a type must carry the same set of points")
     # reference set averaged over all cells (reduces rounding noise of imported coordinates)

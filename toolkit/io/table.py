@@ -17,6 +17,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.io.files import atomic_write, read_text
 
 __all__ = ["EMPTY", "Table", "read_csv", "first_duplicate", "first_true", "write_csv", "int_cells",
@@ -80,7 +81,7 @@ def _loadtxt(src, dtype, kinds, skiprows):
                           encoding="utf-8-sig", converters=conv or None, ndmin=1, quotechar=None)
     for j, k in enumerate(kinds):
         if k == "t" and data.size and (np.strings.str_len(data[f"c{j}"]) >= _TYPE_WIDTH).any():
-            raise ValueError("type token too long")      # re-read carefully
+            raise InputError("type token too long")      # re-read carefully
     return data
 
 
@@ -89,25 +90,25 @@ def read_csv(path: Path, schema) -> Table:
     (integer), ``"n"`` (integer or empty), ``"f"`` (float), ``"t"`` (element
     type) per column."""
     if not path.is_file():
-        raise ValueError(f"{path}: file not found")
+        raise InputError(f"{path}: file not found")
     try:
         with open(path, encoding="utf-8-sig") as f:
             header = f.readline()
     except UnicodeDecodeError as e:
-        raise ValueError(f"{path}: not UTF-8 text (byte {e.start}: {e.reason})") from None
+        raise InputError(f"{path}: not UTF-8 text (byte {e.start}: {e.reason})") from None
     except OSError as e:
-        raise ValueError(f"{path}: cannot be read ({e.strerror or e})") from None
+        raise InputError(f"{path}: cannot be read ({e.strerror or e})") from None
     header = header.rstrip("\n")
     if not header.strip():
-        raise ValueError(f"{path}: line 1 must be the header row, found an empty line")
+        raise InputError(f"{path}: line 1 must be the header row, found an empty line")
     names = [c.strip() for c in header.split(",")]
     bad = [j for j, n in enumerate(names) if not n]
     if bad:
-        raise ValueError(f"{path}: header column {bad[0] + 1} has no name (header: {header.strip()!r})")
+        raise InputError(f"{path}: header column {bad[0] + 1} has no name (header: {header.strip()!r})")
     low = [n.lower() for n in names]
     for j, n in enumerate(low):
         if n in low[:j]:
-            raise ValueError(f"{path}: header names column {names[j]!r} twice")
+            raise InputError(f"{path}: header names column {names[j]!r} twice")
     kinds = schema(path, names)
     dtype = np.dtype([(f"c{j}", _DTYPES[k]) for j, k in enumerate(kinds)])
     try:
@@ -115,7 +116,7 @@ def read_csv(path: Path, schema) -> Table:
     except Exception:
         data, lines = _read_csv_careful(path, names, kinds, dtype)
     if len(data) == 0:
-        raise ValueError(f"{path}: no data rows after the header")
+        raise InputError(f"{path}: no data rows after the header")
     return Table(path, names, data, lines)
 
 
@@ -138,7 +139,7 @@ def _read_csv_careful(path, names, kinds, dtype):
         try:
             a = _loadtxt(chunk, dtype, kinds, 0)
             if len(a) != len(chunk):
-                raise ValueError("row count")
+                raise InputError("row count")
         except Exception:
             a = _parse_lines(path, names, kinds, dtype, chunk, start, lines)
         parts.append(a)
@@ -154,19 +155,19 @@ def _parse_lines(path, names, kinds, dtype, chunk, start, lines):
         cells = [c.strip() for c in s.split(",")]
         where = f"{path}, row {r + 1} (line {lines[r]})"
         if len(cells) > ncol:
-            raise ValueError(f"{where}: {len(cells)} cells, but the header has {ncol} columns")
+            raise InputError(f"{where}: {len(cells)} cells, but the header has {ncol} columns")
         if len(cells) < ncol:
             if all(kinds[j] == "n" for j in range(len(cells), ncol)):
                 cells += [""] * (ncol - len(cells))
             else:
-                raise ValueError(f"{where}: {len(cells)} cells, but the header has {ncol} columns "
+                raise InputError(f"{where}: {len(cells)} cells, but the header has {ncol} columns "
                                  f"(no value for {names[len(cells)]!r})")
         vals = []
         for j, (c, k) in enumerate(zip(cells, kinds)):
             try:
                 vals.append(_parse_cell(c, k))
             except _CellError as e:
-                raise ValueError(f"{where}, column {names[j]!r}: {e}") from None
+                raise InputError(f"{where}, column {names[j]!r}: {e}") from None
         out[i] = tuple(vals)
     return out
 

@@ -14,6 +14,8 @@ import numbers
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = ["fmt", "plain", "first_non_finite", "json_text"]
 
 
@@ -79,7 +81,7 @@ def plain(v, where="value"):
         return plain(v.tolist(), where)
     if callable(getattr(v, "to_dict", None)):
         return plain(v.to_dict(), where)
-    raise ValueError(f"{where}: cannot store a {type(v).__name__} in JSON")
+    raise InputError(f"{where}: cannot store a {type(v).__name__} in JSON")
 
 
 def first_non_finite(v):

@@ -10,6 +10,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import get_element, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
@@ -27,7 +28,7 @@ def _axes(ax):
 
 def _need_2d(mesh):
     if mesh.dim != 2:
-        raise ValueError("contour plots are for 2D meshes; export a VTU file to view 3D models")
+        raise InputError("contour plots are for 2D meshes; export a VTU file to view 3D models")
 
 
 def plot_mesh(mesh: Mesh, ax=None, color="0.35", linewidth=0.4, label_regions=False):
@@ -182,9 +183,9 @@ def plot_indicator(ind, ax=None, quantity="error", cmap="viridis", edgecolor="no
     from matplotlib.collections import PolyCollection
 
     if ind.mesh.dim != 2:
-        raise ValueError("ErrorIndicator.plot maps 2D meshes only")
+        raise InputError("ErrorIndicator.plot maps 2D meshes only")
     if quantity not in ("error", "density"):
-        raise ValueError(f"quantity must be 'error' or 'density', got {quantity!r}")
+        raise InputError(f"quantity must be 'error' or 'density', got {quantity!r}")
     if ax is None:
         _, ax = plt.subplots()
     polys, vals = [], []

@@ -4,6 +4,7 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.assess.convergence import grid_convergence
 from toolkit.recovery.projection import average_nodal, project_l2
 from toolkit.report.tables import Table, headless
@@ -20,7 +21,7 @@ def recover_all(field, methods=("l2", "average", "spr")) -> dict:
     out = {}
     for m in methods:
         if m not in METHODS:
-            raise ValueError(f"unknown recovery method {m!r}; use one of {', '.join(METHODS)}")
+            raise InputError(f"unknown recovery method {m!r}; use one of {', '.join(METHODS)}")
         label, fn = METHODS[m]
         out[label] = fn(field)
     return out

@@ -30,7 +30,7 @@ import math
 import numbers
 from pathlib import Path
 
-from toolkit.errors import WorkbookError
+from toolkit.errors import InputError, WorkbookError
 from toolkit.report.format import first_non_finite, fmt, json_text, plain
 
 __all__ = ["Summary", "inputs_hash", "read_summary", "SUMMARY_METADATA_KEY", "SUMMARY_FORMAT"]
@@ -44,7 +44,7 @@ def _finite_plain(v, where):
     """:func:`plain` of ``v``, refusing NaN and infinity (the summary holds finite numbers)."""
     bad = first_non_finite(v)
     if bad is not None:
-        raise ValueError(f"{where}: value {bad} is not finite")
+        raise InputError(f"{where}: value {bad} is not finite")
     return plain(v, where)
 
 
@@ -80,12 +80,12 @@ class Summary:
         """Record one result: a finite number, a bool or a string, with its unit ("-" if none)."""
         name = str(name)
         if name in self.values:
-            raise ValueError(f"summary value {name!r} recorded twice (re-run from the Summary() cell)")
+            raise InputError(f"summary value {name!r} recorded twice (re-run from the Summary() cell)")
         if not isinstance(unit, str):
-            raise ValueError(f"summary value {name!r}: unit must be a string such as 'MPa' or '-'")
+            raise InputError(f"summary value {name!r}: unit must be a string such as 'MPa' or '-'")
         v = _finite_plain(value, f"summary value {name!r}")
         if isinstance(v, (list, dict)) or v is None:
-            raise ValueError(f"summary value {name!r}: record a number, bool or string, not {type(value).__name__}")
+            raise InputError(f"summary value {name!r}: record a number, bool or string, not {type(value).__name__}")
         entry = {"value": v, "unit": unit}
         if note is not None:
             entry["note"] = str(note)
@@ -96,24 +96,24 @@ class Summary:
         with at least name, value, limit, utilization and status ("PASS"/"FAIL")."""
         d = result.to_dict() if hasattr(result, "to_dict") else result
         if not isinstance(d, dict):
-            raise ValueError(f"summary check: expected a dict or an object with to_dict(), got {type(result).__name__}")
+            raise InputError(f"summary check: expected a dict or an object with to_dict(), got {type(result).__name__}")
         missing = [k for k in _CHECK_KEYS if k not in d]
         name = d.get("name", "?")
         if missing:
-            raise ValueError(f"summary check {name!r}: missing {', '.join(missing)}")
+            raise InputError(f"summary check {name!r}: missing {', '.join(missing)}")
         entry = {"name": str(d["name"])}
         for k in ("value", "limit", "utilization"):
             x = d[k]
             if isinstance(x, bool) or not isinstance(x, numbers.Real) or not math.isfinite(float(x)):
-                raise ValueError(f"summary check {name!r}: {k} must be a finite number, got {x!r}")
+                raise InputError(f"summary check {name!r}: {k} must be a finite number, got {x!r}")
             entry[k] = float(x)
         if d["status"] not in ("PASS", "FAIL"):
-            raise ValueError(f"summary check {name!r}: status must be 'PASS' or 'FAIL', got {d['status']!r}")
+            raise InputError(f"summary check {name!r}: status must be 'PASS' or 'FAIL', got {d['status']!r}")
         entry["status"] = d["status"]
         if d.get("unit") is not None:
             entry["unit"] = str(d["unit"])
         if any(c["name"] == entry["name"] for c in self.checks):
-            raise ValueError(f"summary check {entry['name']!r} recorded twice (re-run from the Summary() cell)")
+            raise InputError(f"summary check {entry['name']!r} recorded twice (re-run from the Summary() cell)")
         self.checks.append(entry)
 
     def to_dict(self) -> dict:

@@ -10,6 +10,7 @@ import html
 import os
 import platform
 
+from toolkit.errors import InputError
 from toolkit.report.format import fmt
 from toolkit.report.summary import inputs_hash
 
@@ -35,7 +36,7 @@ class Table:
         self.rows = [[fmt(c, digits) for c in r] for r in rows]
         for i, r in enumerate(self.rows):
             if len(r) != len(self.headers):
-                raise ValueError(f"table row {i + 1} has {len(r)} cells for {len(self.headers)} headers")
+                raise InputError(f"table row {i + 1} has {len(r)} cells for {len(self.headers)} headers")
         self.title = title
 
     def __repr__(self):

@@ -99,13 +99,14 @@ def demo(out_dir="reports", workbooks=None, progress=False):
     items = list(workbooks) if workbooks is not None else known_workbooks()
     if not items:
         raise WorkbookError(f"no workbooks to render in {WORKBOOKS_DIR}")
-    results, failures = [], []
+    results, failures, cell_failed = [], [], False
     for wb in items:
         stem = Path(wb).stem
         t0 = time.perf_counter()
         try:
             r = render(wb, Path(out_dir) / stem, progress=progress)
-        except (WorkbookError, WorkbookExecutionError) as e:
+        except WorkbookError as e:                # WorkbookExecutionError included
+            cell_failed |= isinstance(e, WorkbookExecutionError)
             print(f"{stem:<28} FAILED after {time.perf_counter() - t0:6.1f} s: {e}")
             failures.append(f"{stem} ({e})")
             continue
@@ -113,6 +114,7 @@ def demo(out_dir="reports", workbooks=None, progress=False):
         fails = sum(c["status"] == "FAIL" for c in checks)
         print(f"{stem:<28} {r.seconds:6.1f} s  {len(checks)} checks, {fails} FAIL  -> {r.html}")
         results.append(r)
-    if failures:
-        raise WorkbookError(f"{len(failures)} of {len(items)} workbooks failed: " + "; ".join(failures))
+    if failures:          # a failed cell (exit code 1) outranks a refused input (2)
+        kind = WorkbookExecutionError if cell_failed else WorkbookError
+        raise kind(f"{len(failures)} of {len(items)} workbooks failed: " + "; ".join(failures))
     return results

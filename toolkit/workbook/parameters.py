@@ -42,7 +42,7 @@ import tokenize
 from dataclasses import dataclass
 from pathlib import Path
 
-from toolkit.errors import ParameterError
+from toolkit.errors import InputError, ParameterError
 from toolkit.report.format import fmt
 
 __all__ = ["Parameter", "parse_parameters", "conform", "violation", "resolve_values", "read_parameters_file",
@@ -346,7 +346,7 @@ def read_parameters_file(params_file):
 
 
 def _reject_constant(s):
-    raise ValueError(s)
+    raise InputError(s)
 
 
 def parse_assignment(text):

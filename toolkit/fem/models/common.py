@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import get_element
 from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
@@ -76,7 +77,7 @@ def join(*curves) -> Curve:
     pieces are dropped.  The parameter stays proportional to arc length."""
     cs = [c for c in curves if c.length > 0]
     if not cs:
-        raise ValueError("join: all pieces have zero length")
+        raise InputError("join: all pieces have zero length")
     L = np.array([c.length for c in cs])
     bounds = np.concatenate([[0.0], np.cumsum(L) / L.sum()])
 
@@ -105,7 +106,7 @@ def graded(length: float, first: float, last: float | None = None, growth: float
     (then constant), scaled to fit ``length`` exactly.  ``at="end"`` puts the
     fine end at 1 instead of 0."""
     if length <= 0 or first <= 0:
-        raise ValueError(f"graded: length and first size must be positive (got {length}, {first})")
+        raise InputError(f"graded: length and first size must be positive (got {length}, {first})")
     last = max(first, last if last is not None else length)
     if first >= length:
         sizes = np.array([length])
@@ -125,7 +126,7 @@ def graded(length: float, first: float, last: float | None = None, growth: float
     if at == "end":
         b = 1.0 - b[::-1]
     elif at != "start":
-        raise ValueError(f"graded: at must be 'start' or 'end', got {at!r}")
+        raise InputError(f"graded: at must be 'start' or 'end', got {at!r}")
     b[0], b[-1] = 0.0, 1.0
     return b
 
@@ -174,7 +175,7 @@ class Block:
         for a, b, what in ((P00, self.left.start, "bottom-left"), (P10, self.right.start, "bottom-right"),
                            (P01, self.left.end, "top-left"), (P11, self.right.end, "top-right")):
             if np.linalg.norm(a - b) > 1e-9 * max(1.0, np.abs(a).max()):
-                raise ValueError(f"Block: the {what} corner does not close ({a} vs {b})")
+                raise InputError(f"Block: the {what} corner does not close ({a} vs {b})")
         S, Tt = s[:, None], t[:, None]
         x = ((1 - Tt) * B + Tt * T + (1 - S) * L + S * R
              - ((1 - S) * (1 - Tt) * P00 + S * (1 - Tt) * P10 + (1 - S) * Tt * P01 + S * Tt * P11))
@@ -205,7 +206,7 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
 
     et = get_element(etype)
     if et.name not in QUAD_TYPES:
-        raise ValueError(f"element type must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"element type must be one of {QUAD_TYPES}, got {etype!r}")
     xs, cs, sets, regs = [], [], {}, []
     off = 0
     for blk in blocks:
@@ -266,12 +267,12 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
             named |= np.isin(bnd, v).all(axis=1)
     if not named.all():
         e = bnd[np.flatnonzero(~named)[0]]
-        raise ValueError(f"mesher: the blocks do not conform: boundary edge {e.tolist()} at "
+        raise InputError(f"mesher: the blocks do not conform: boundary edge {e.tolist()} at "
                          f"{mesh.nodes[e[0]].round(6).tolist()} lies on no named side "
                          f"({int((~named).sum())} such edges)")
     for k, v in edges.items():
         if len(v) == 0:
-            raise ValueError(f"mesher: named side {k!r} has no boundary edges")
+            raise InputError(f"mesher: named side {k!r} has no boundary edges")
     return mesh, edges, sets
 
 
@@ -305,7 +306,7 @@ def boundary_edges(mesh: Mesh) -> np.ndarray:
             out.append(b.cells[sel][:, list(loc)].astype(np.int64))
     widths = {o.shape[1] for o in out if len(o)}
     if len(widths) > 1:
-        raise ValueError("boundary_edges: the mesh mixes linear and quadratic element edges")
+        raise InputError("boundary_edges: the mesh mixes linear and quadratic element edges")
     return np.concatenate([o for o in out if o.shape[1] == max(widths)]) if widths else np.zeros((0, 2), np.int64)
 
 

@@ -21,6 +21,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.fem.loads import Traction
 from toolkit.fem.material import Material
 from toolkit.fem.supports import Displacement, Fixed, Roller
@@ -99,35 +100,35 @@ def _dimensions(shape, large_width, small_width, fillet_radius, large_length, sm
                 etype, load, growth) -> _Dimensions:
     """Check the parameters of :func:`shoulder_fillet` and derive the dimensions."""
     if shape not in ("flat", "shaft"):
-        raise ValueError(f"shoulder_fillet: shape must be 'flat' or 'shaft', got {shape!r}")
+        raise InputError(f"shoulder_fillet: shape must be 'flat' or 'shaft', got {shape!r}")
     if load not in ("tension", "bending"):
-        raise ValueError(f"shoulder_fillet: load must be 'tension' or 'bending', got {load!r}")
+        raise InputError(f"shoulder_fillet: load must be 'tension' or 'bending', got {load!r}")
     if shape == "shaft" and load == "bending":
-        raise ValueError("shoulder_fillet: bending of a shaft is not axisymmetric; use load='tension' or shape='flat'")
+        raise InputError("shoulder_fillet: bending of a shaft is not axisymmetric; use load='tension' or shape='flat'")
     D, d, r = float(large_width), float(small_width), float(fillet_radius)
     for name, v in (("large_width", D), ("small_width", d), ("fillet_radius", r), ("thickness", thickness)):
         if not (np.isfinite(v) and v > 0):
-            raise ValueError(f"shoulder_fillet: {name} must be positive, got {v}")
+            raise InputError(f"shoulder_fillet: {name} must be positive, got {v}")
     if d >= D:
-        raise ValueError(f"shoulder_fillet: small_width must be smaller than large_width = {D:g} (got {d:g})")
+        raise InputError(f"shoulder_fillet: small_width must be smaller than large_width = {D:g} (got {d:g})")
     hstep = (D - d) / 2
     if r > hstep * (1 + 1e-12):
-        raise ValueError(f"shoulder_fillet: fillet_radius must be <= (large_width - small_width)/2 = {hstep:g} "
+        raise InputError(f"shoulder_fillet: fillet_radius must be <= (large_width - small_width)/2 = {hstep:g} "
                          f"(got {r:g})")
     r = min(r, hstep)
     Ll = 1.5 * D if large_length is None else float(large_length)
     Ls = r + 2 * d if small_length is None else float(small_length)
     if not (np.isfinite(Ll) and Ll > 0):
-        raise ValueError(f"shoulder_fillet: large_length must be positive, got {Ll}")
+        raise InputError(f"shoulder_fillet: large_length must be positive, got {Ll}")
     if not (np.isfinite(Ls) and Ls > r):
-        raise ValueError(f"shoulder_fillet: small_length must exceed fillet_radius = {r:g} (got {Ls:g})")
+        raise InputError(f"shoulder_fillet: small_length must exceed fillet_radius = {r:g} (got {Ls:g})")
     if etype not in QUAD_TYPES:
-        raise ValueError(f"shoulder_fillet: etype must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"shoulder_fillet: etype must be one of {QUAD_TYPES}, got {etype!r}")
     h = r / 6 if element_size is None else float(element_size)
     if not (0 < h <= r):
-        raise ValueError(f"shoulder_fillet: element_size must lie in (0, fillet_radius = {r:g}], got {h:g}")
+        raise InputError(f"shoulder_fillet: element_size must lie in (0, fillet_radius = {r:g}], got {h:g}")
     if not (1.0 < growth <= 2.0):
-        raise ValueError(f"shoulder_fillet: growth must lie in (1, 2], got {growth}")
+        raise InputError(f"shoulder_fillet: growth must lie in (1, 2], got {growth}")
     return _Dimensions(D, d, r, hstep, Ll, Ls, h)
 
 

@@ -25,6 +25,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.fem.loads import Traction
 from toolkit.fem.material import Material
 from toolkit.fem.supports import Displacement, Roller
@@ -112,36 +113,36 @@ def _dimensions(plate_thickness, attachment_thickness, weld_leg, sides, flank_an
     t, T, leg = float(plate_thickness), float(attachment_thickness), float(weld_leg)
     for name, v in (("plate_thickness", t), ("attachment_thickness", T), ("weld_leg", leg)):
         if not (np.isfinite(v) and v > 0):
-            raise ValueError(f"weld_toe: {name} must be positive, got {v}")
+            raise InputError(f"weld_toe: {name} must be positive, got {v}")
     if sides not in (1, 2):
-        raise ValueError(f"weld_toe: sides must be 1 (T joint) or 2 (cruciform), got {sides!r}")
+        raise InputError(f"weld_toe: sides must be 1 (T joint) or 2 (cruciform), got {sides!r}")
     th_deg = float(flank_angle)
     if not (10.0 <= th_deg <= 80.0):
-        raise ValueError(f"weld_toe: flank_angle must lie in [10, 80] degrees, got {th_deg:g}")
+        raise InputError(f"weld_toe: flank_angle must lie in [10, 80] degrees, got {th_deg:g}")
     if etype not in QUAD_TYPES:
-        raise ValueError(f"weld_toe: etype must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"weld_toe: etype must be one of {QUAD_TYPES}, got {etype!r}")
     th = np.radians(th_deg)
     a = T / 2
     v = leg * np.tan(th)
     x_toe = a + leg
     Lh = (a + leg + 4 * t) if plate_length is None else float(plate_length) / 2
     if not (np.isfinite(Lh) and Lh >= x_toe + t):
-        raise ValueError(f"weld_toe: the weld leg leaves too little plate: plate_length must be at least "
+        raise InputError(f"weld_toe: the weld leg leaves too little plate: plate_length must be at least "
                          f"2 (attachment_thickness/2 + weld_leg + plate_thickness) = {2 * (x_toe + t):g} "
                          f"(got {2 * Lh:g})")
     H = max(t, 2 * v) if attachment_height is None else float(attachment_height)
     if not (np.isfinite(H) and H > v * (1 + 1e-9)):
-        raise ValueError(f"weld_toe: attachment_height must exceed the weld's vertical leg "
+        raise InputError(f"weld_toe: attachment_height must exceed the weld's vertical leg "
                          f"weld_leg*tan(flank_angle) = {v:g} (got {H:g})")
     rho = None if toe_radius is None else float(toe_radius)
     face = leg / np.cos(th)                              # weld face length
     if rho is not None:
         if not (np.isfinite(rho) and rho > 0):
-            raise ValueError(f"weld_toe: toe_radius must be positive (or None for a sharp toe), got {rho}")
+            raise InputError(f"weld_toe: toe_radius must be positive (or None for a sharp toe), got {rho}")
         e = rho / np.tan((np.pi - th) / 2)               # tangent length from the toe
         lim = min(0.5 * face, 0.5 * (Lh - x_toe))
         if e > lim:
-            raise ValueError(f"weld_toe: toe_radius too large: the rounding must end within half the weld face "
+            raise InputError(f"weld_toe: toe_radius too large: the rounding must end within half the weld face "
                              f"and half the plate ahead of the toe, i.e. toe_radius <= "
                              f"{lim * np.tan((np.pi - th) / 2):g} (got {rho:g})")
     else:
@@ -149,10 +150,10 @@ def _dimensions(plate_thickness, attachment_thickness, weld_leg, sides, flank_an
     h = (t / 10 if rho is None else rho / 4) if element_size is None else float(element_size)
     hmax = min(t / 2, leg / 2) if rho is None else rho
     if not (0 < h <= hmax):
-        raise ValueError(f"weld_toe: element_size must lie in (0, {hmax:g}] "
+        raise InputError(f"weld_toe: element_size must lie in (0, {hmax:g}] "
                          f"({'min(plate_thickness, weld_leg)/2' if rho is None else 'toe_radius'}), got {h:g}")
     if not (1.0 < growth <= 2.0):
-        raise ValueError(f"weld_toe: growth must lie in (1, 2], got {growth}")
+        raise InputError(f"weld_toe: growth must lie in (1, 2], got {growth}")
     return _Dimensions(t, T, leg, th_deg, th, v, x_toe, Lh, H, rho, e, h)
 
 
