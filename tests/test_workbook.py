@@ -17,7 +17,7 @@ import nbformat
 import pytest
 
 from toolkit.assess.checks import CheckResult
-from toolkit.cli import build_parser
+from toolkit.cli import main
 from toolkit.workbook import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
                               inputs_hash, new_workbook, parse_assignment, parse_parameters, read_summary, render)
 from toolkit.workbook.html import notebook_html
@@ -232,24 +232,18 @@ def test_new_workbook_copies_template_and_sets_component(tmp_path):
 # ---------------------------------------------------------------------------
 # Command line (no kernel)
 # ---------------------------------------------------------------------------
-def _parser():
-    return build_parser()
-
-
 def test_cli_render_bad_parameter_exits_2_with_reason(tmp_path, capsys):
     out = tmp_path / "o"
-    args = _parser().parse_args(["render", str(TINY), "--set", "widht=3", "--out", str(out)])
-    assert args.func(args) == 2
+    assert main(["render", str(TINY), "--set", "widht=3", "--out", str(out)]) == 2
     err = capsys.readouterr().err
     assert err.startswith("error: unknown parameter 'widht'") and err.count("\n") == 1
     assert not out.exists()
-    args = _parser().parse_args(["render", str(TINY), "--set", "count=2", "--set", "count=3", "--out", str(out)])
-    assert args.func(args) == 2 and "given twice" in capsys.readouterr().err
+    assert main(["render", str(TINY), "--set", "count=2", "--set", "count=3", "--out", str(out)]) == 2
+    assert "given twice" in capsys.readouterr().err
 
 
 def test_cli_new_unknown_template_exits_2(tmp_path, capsys):
-    args = _parser().parse_args(["new", "no_such_template", "Part 1", "--out", str(tmp_path)])
-    assert args.func(args) == 2
+    assert main(["new", "no_such_template", "Part 1", "--out", str(tmp_path)]) == 2
     assert "unknown template 'no_such_template'" in capsys.readouterr().err
 
 
