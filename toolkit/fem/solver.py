@@ -44,7 +44,7 @@ import scipy.sparse as sp
 from toolkit.core.arrays import chunk_slices
 from toolkit.core.fields import GaussField
 from toolkit.core.mesh import Mesh
-from toolkit.core.linalg import assemble_csr, default_threads
+from toolkit.core.assembly import assemble_csr, default_threads
 
 __all__ = [
     "Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement",

@@ -38,8 +38,8 @@ import scipy.sparse as sp
 
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
 from toolkit.core.fields import GaussField, NodalField
-from toolkit.core.linalg import (CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, default_threads,
-                     per_cell, sum_to_unknowns)
+from toolkit.core.assembly import QuadratureSum, Scaled, assemble_many, default_threads, per_cell, sum_to_unknowns
+from toolkit.core.cg import CGLayout, block_cg
 from toolkit.core.mesh import Mesh
 from toolkit.core.numbering import DofMap
 
