@@ -12,7 +12,7 @@ from toolkit.core.elements import ELEMENTS
 from toolkit.core.assembly import QuadratureSum, Scaled, assemble_csr, assemble_many
 from toolkit.core.cg import CGLayout, block_cg, row_slice
 from toolkit.fem.models import box_mesh, rectangle_mesh
-from toolkit.recovery.projection import unit_mass_inverse
+from toolkit.recovery.preconditioner import unit_mass_inverse
 from test_recovery import _field, _smooth
 
 

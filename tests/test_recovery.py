@@ -220,7 +220,7 @@ def test_morton_codes_follow_the_z_order():
     """Z-order (Morton 1966): interleave the coordinates' bits, x in the
     lowest; on a 4x4 grid the curve visits the 2x2 quadrants in Z pattern
     and each quadrant's points in the same pattern."""
-    from toolkit.recovery.projection import morton_codes
+    from toolkit.recovery.renumber import morton_codes
     xy = np.array([(x, y) for y in range(4) for x in range(4)], dtype=float)
     order = np.argsort(morton_codes(xy))
     expected = [(0, 0), (1, 0), (0, 1), (1, 1), (2, 0), (3, 0), (2, 1), (3, 1),

@@ -3,7 +3,7 @@ design quantities, checks and a checkable report."""
 from toolkit.core.elements import ELEMENTS, ElementType, QuadratureRule, get_element
 from toolkit.core.mesh import Mesh
 from toolkit.core.fields import GaussField, NodalField
-from toolkit.recovery.projection import L2Projector, project_l2, average_nodal
+from toolkit.recovery import L2Projector, project_l2, average_nodal
 from toolkit.core.stress import von_mises, principal, tresca, hydrostatic, max_abs_principal, rotate_2d, rotate
 from toolkit.assess.hotspot import hot_spot_stress, linearize, hot_spot_concentration
 from toolkit.assess.checks import SNCurve, sn_curve, thickness_factor, miner_damage, fatigue_check, static_check, CheckResult

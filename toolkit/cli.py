@@ -39,7 +39,7 @@ LARGE_INPUT_BYTES = 20_000_000   # --progress auto: report stages above this inp
 
 
 def _recover(field, method: str, across_regions: bool):
-    from toolkit.recovery.projection import average_nodal, project_l2
+    from toolkit.recovery import average_nodal, project_l2
 
     if method == "l2":
         return project_l2(field, across_regions=across_regions)

@@ -5,7 +5,7 @@ from __future__ import annotations
 import numpy as np
 
 from toolkit.assess.convergence import grid_convergence
-from toolkit.recovery.projection import average_nodal, project_l2
+from toolkit.recovery import average_nodal, project_l2
 from toolkit.report.tables import Table, headless
 from toolkit.recovery.spr import recover_spr
 
