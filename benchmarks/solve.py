@@ -19,7 +19,8 @@ import numpy as np
 import scipy.sparse as sp
 
 from toolkit.fem.models import plate_with_hole, shoulder_fillet, weld_toe
-from toolkit.fem.solver import element_stiffness, solve
+from toolkit.fem.elasticity import element_stiffness
+from toolkit.fem.solver import solve
 
 GROWTH = 1.05      # gentle grading so that the size follows the element size
 

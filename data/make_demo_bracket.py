@@ -28,7 +28,7 @@ from pathlib import Path
 import numpy as np
 
 from toolkit.core.fields import GaussField
-from toolkit.io.neutral import write_results
+from toolkit.io import write_results
 from toolkit.core.mesh import Mesh
 
 L, H, R, XC = 120.0, 40.0, 8.0, 60.0

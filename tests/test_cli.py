@@ -12,7 +12,7 @@ import pytest
 
 from toolkit import average_nodal, project_l2
 from toolkit.cli import build_parser, main
-from toolkit.io.neutral import read_results
+from toolkit.io import read_results
 from toolkit.recovery.spr import recover_spr
 
 DEMO = Path(__file__).resolve().parents[1] / "data" / "demo_bracket"
@@ -52,7 +52,7 @@ def test_recover_writes_the_projected_field(tmp_path, demo, capsys, method, acro
 
 
 def test_recover_reads_npz(tmp_path, demo):
-    from toolkit.io.neutral import write_results
+    from toolkit.io import write_results
     mesh, field = demo
     write_results(tmp_path / "d.npz", mesh, field)
     assert main(["recover", str(tmp_path / "d.npz"), "--out", str(tmp_path / "n.csv")]) == 0
@@ -137,3 +137,33 @@ def test_parser_has_demo_with_default_output():
     args = build_parser().parse_args(["demo"])
     assert args.command == "demo" and args.out == "reports" and not args.recovery_only
     assert build_parser().parse_args(["demo", "--out", "x"]).out == "x"
+
+
+def test_an_internal_error_is_a_bug_not_bad_input(tmp_path, monkeypatch, capsys):
+    """A numpy error inside the toolkit (planted: a broadcasting failure while
+    reading) is not the user's mistake: traceback, a request to report it,
+    exit code 1, and no output file."""
+    def broken(path):
+        return np.ones((3, 2)) + np.ones((4, 5))
+
+    monkeypatch.setattr("toolkit.io.read_results", broken)
+    out = tmp_path / "nodal.csv"
+    code = main(["recover", str(DEMO), "--method", "l2", "--out", str(out)])
+    err = capsys.readouterr().err
+    assert code == 1, err
+    assert "Traceback" in err and "operands could not be broadcast" in err
+    assert "internal error" in err and "please report it" in err
+    assert not out.exists()
+
+
+@pytest.mark.parametrize("argv, message", [
+    (["recover", "no/such/folder", "--out", "x.csv"], "no/such/folder"),
+    (["render", "no_such_workbook", "--out", "o"], "no_such_workbook"),
+    (["render", "weld_toe", "--set", "plate_thickness=-3", "--out", "o"], "plate_thickness"),
+])
+def test_the_users_mistakes_are_one_line_and_exit_2(tmp_path, monkeypatch, capsys, argv, message):
+    monkeypatch.chdir(tmp_path)
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: ") and err.count("\n") == 1 and message in err
+    assert "Traceback" not in err

@@ -12,8 +12,8 @@ from math import factorial
 import numpy as np
 import pytest
 
-from toolkit.core.elements import (ELEMENTS, SIMPLEX_RULES, gauss_legendre_rule, get_element, local_field_matrix,
-                              simplex_rule)
+from toolkit.core.elements import (ELEMENTS, SIMPLEX_RULES, ElementType, gauss_legendre_rule, get_element,
+                                   local_field_matrix, simplex_rule)
 
 NAMES = list(ELEMENTS)
 
@@ -161,3 +161,42 @@ def test_local_field_reproduces_its_space(name, npts):
     f = (lambda x: c[0] + x @ c[1:]) if npts > 1 else (lambda x: c[0] + 0 * x[:, 0])
     np.testing.assert_allclose(E @ f(pts), f(tgt), atol=1e-12)
     np.testing.assert_allclose(E.sum(axis=1), 1.0, atol=1e-12)
+
+
+# ---------------------------------------------------------------------------
+# The declaration's per-type facts (ElementType keyword fields)
+# ---------------------------------------------------------------------------
+@pytest.mark.parametrize("name", [n for n, e in ELEMENTS.items() if e.dim == 2])
+def test_plot_triangles_tile_the_reference_element(name):
+    """The sub-triangles that draw a 2D cell cover the reference element once
+    (areas sum to its area: 4 for [-1, 1]^2, 1/2 for the unit triangle), each
+    counter-clockwise, and every node is a vertex of one (common practice for
+    drawing higher-order cells with linear triangles)."""
+    et = ELEMENTS[name]
+    x = et.nodes[np.array(et.plot_triangles)]                        # (t, 3, 2)
+    area = 0.5 * ((x[:, 1, 0] - x[:, 0, 0]) * (x[:, 2, 1] - x[:, 0, 1])
+                  - (x[:, 2, 0] - x[:, 0, 0]) * (x[:, 1, 1] - x[:, 0, 1]))
+    assert (area > 0).all()
+    assert area.sum() == pytest.approx(0.5 if et.is_simplex else 4.0)
+    assert set(np.ravel(et.plot_triangles)) == set(range(et.nnodes))
+
+
+@pytest.mark.parametrize("name", list(ELEMENTS))
+def test_vtk_cell_type_has_the_node_count(name):
+    """meshio's table of VTK cell types (an independent source) has our node count."""
+    meshio = pytest.importorskip("meshio")
+    et = ELEMENTS[name]
+    assert meshio._mesh.topological_dimension[et.vtk_cell_type] == et.dim
+    assert meshio._common.num_nodes_per_cell[et.vtk_cell_type] == et.nnodes
+
+
+def test_a_wrong_declaration_is_refused():
+    quad = ELEMENTS["quad4"]
+    kw = dict(name="q", shape="quad", nodes=quad.nodes, exponents=quad.exponents, ncorners=4, full_rule_points=4,
+              reduced_rule_points=1, mass_rule_points=4, edges=quad.edges, vtk_cell_type="quad")
+    with pytest.raises(ValueError, match="plot_triangles"):
+        ElementType(**kw, plot_triangles=((0, 1, 7),))
+    with pytest.raises(ValueError, match="projection_preconditioner"):
+        ElementType(**kw, projection_preconditioner="multigrid")
+    with pytest.raises(TypeError):
+        ElementType("q", "quad", quad.nodes, quad.exponents, 4, 4, 1, 4, quad.edges)    # keywords only

@@ -14,7 +14,7 @@ from hypothesis import HealthCheck, given, settings, strategies as st
 
 from toolkit import GaussField, project_l2
 from toolkit.core.elements import ELEMENTS
-from toolkit.io.neutral import (FORMAT, VTK_CELL_TYPES, read_about, read_mesh, read_results, write_nodal_csv,
+from toolkit.io import (FORMAT, VTK_CELL_TYPES, read_about, read_mesh, read_results, write_nodal_csv,
                         write_results, write_vtu)
 from toolkit.core.mesh import Mesh
 from toolkit.fem.models import box_mesh, rectangle_mesh

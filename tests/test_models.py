@@ -1,4 +1,4 @@
-"""Tests of the parametric meshers (toolkit.models) solved with toolkit.solve."""
+"""Tests of the parametric meshers (toolkit.fem.models) solved with toolkit.fem.solver."""
 import numpy as np
 
 from toolkit.assess.references import fillet_kt, heywood_kt_net
@@ -9,7 +9,7 @@ from toolkit.core.mesh import Mesh
 from toolkit.fem.models import plate_with_hole, shoulder_fillet, weld_toe
 from toolkit.fem.models.common import _reflect_perm, edges_on
 from toolkit.recovery.projection import project_l2
-from toolkit.fem.solver import Material, Roller, Traction, edge_integral, solve
+from toolkit.fem import Material, Roller, Traction, edge_integral, solve
 
 
 def solved(model):

@@ -15,7 +15,7 @@ from pathlib import Path
 import nbformat
 import pytest
 
-from toolkit.workbook.runner import ParameterError, parse_parameters
+from toolkit.workbook import ParameterError, parse_parameters
 
 ROOT = Path(__file__).resolve().parents[1]
 WORKBOOKS = sorted((ROOT / "workbooks").glob("*.ipynb"))

@@ -1,4 +1,4 @@
-"""Point location, paths and sampling (toolkit.paths).
+"""Point location, paths and sampling (toolkit.core.locate, toolkit.assess.paths, toolkit.assess.sampling).
 
 References used below:
 * Kirsch (1898), the stress around a circular hole in a plate under uniaxial
@@ -18,8 +18,9 @@ from toolkit import GaussField, Mesh, NodalField
 from toolkit.core.elements import ELEMENTS
 from toolkit.fem.models import box_mesh, rectangle_mesh
 from toolkit.core.fields import RowLayout
-from toolkit.assess.paths import (PointLocator, arc, edge_path, line, polyline, raw_along,
-                           sample)
+from toolkit.assess.paths import arc, edge_path, line, polyline
+from toolkit.assess.sampling import raw_along, sample
+from toolkit.core.locate import PointLocator
 from toolkit.core.numbering import DofMap
 
 S, A = 1.0, 1.0        # remote stress, hole radius
@@ -337,7 +338,7 @@ def test_edge_path_follows_the_curved_quadratic_hole_edge():
     # distances are arc lengths: equal steps map to equal angle steps on a circle
     np.testing.assert_allclose(np.diff(th), -np.pi / 2 / 96, rtol=2e-3)
     # the points agree with the element geometry at the edge's natural coordinates
-    loc = ep._locate(ep.sample(n=97))
+    loc = ep.locate(ep.sample(n=97))
     b = m.blocks[0]
     back = np.einsum("pk,pki->pi", b.element.shape_functions(loc.xi), m.nodes[b.cells[loc.cell]])
     np.testing.assert_allclose(back, res.points, atol=1e-14)

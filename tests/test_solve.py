@@ -1,12 +1,12 @@
-"""Tests of the 2D linear-elastic solver (toolkit.solve)."""
+"""Tests of the 2D linear-elastic solver (toolkit.fem)."""
 import numpy as np
 import pytest
 
 from toolkit.fem.models.common import edges_on
 from toolkit.core.grid import rectangle_mesh
 from toolkit.core.mesh import Mesh
-from toolkit.fem.solver import (ANALYSES, Displacement, Fixed, Material, PointLoad, Pressure, Roller, Traction,
-                           edge_integral, solve)
+from toolkit.fem import (ANALYSES, Displacement, Fixed, Material, PointLoad, Pressure, Roller, Traction,
+                         edge_integral, solve)
 
 TYPES = ("tri3", "tri6", "quad4", "quad8", "quad9")
 MAT = Material(200.0, 0.3)

@@ -7,7 +7,6 @@ width 12, count 4, "round": area = 12 * 4 * 2 = 96 mm2 (the defaults give 30),
 utilization = 96 / 100 = 0.96.  Only three kernels are started (two identical
 renders and one failing render); everything else runs without a kernel.
 """
-import argparse
 import hashlib
 import json
 import re
@@ -18,9 +17,10 @@ import nbformat
 import pytest
 
 from toolkit.assess.checks import CheckResult
-from toolkit.workbook.runner import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
-                              _html, add_commands, inputs_hash, new_workbook, parse_assignment,
-                              parse_parameters, read_summary, render)
+from toolkit.cli import main
+from toolkit.workbook import (INJECTED_TAG, ParameterError, Summary, WorkbookError, WorkbookExecutionError,
+                              inputs_hash, new_workbook, parse_assignment, parse_parameters, read_summary, render)
+from toolkit.workbook.html import notebook_html
 
 DATA = Path(__file__).resolve().parent / "data"
 TINY = DATA / "tiny.ipynb"
@@ -205,7 +205,7 @@ def test_summary_refuses_bad_entries(call, message):
 def test_html_refuses_remote_images():
     nb = nbformat.v4.new_notebook(cells=[nbformat.v4.new_markdown_cell('<img src="https://example.org/a.png">')])
     with pytest.raises(WorkbookError, match="remote content"):
-        _html(nb, "remote")
+        notebook_html(nb, "remote")
 
 
 # ---------------------------------------------------------------------------
@@ -232,26 +232,18 @@ def test_new_workbook_copies_template_and_sets_component(tmp_path):
 # ---------------------------------------------------------------------------
 # Command line (no kernel)
 # ---------------------------------------------------------------------------
-def _parser():
-    ap = argparse.ArgumentParser(prog="stresspath")
-    add_commands(ap.add_subparsers(dest="command", required=True))
-    return ap
-
-
 def test_cli_render_bad_parameter_exits_2_with_reason(tmp_path, capsys):
     out = tmp_path / "o"
-    args = _parser().parse_args(["render", str(TINY), "--set", "widht=3", "--out", str(out)])
-    assert args.func(args) == 2
+    assert main(["render", str(TINY), "--set", "widht=3", "--out", str(out)]) == 2
     err = capsys.readouterr().err
     assert err.startswith("error: unknown parameter 'widht'") and err.count("\n") == 1
     assert not out.exists()
-    args = _parser().parse_args(["render", str(TINY), "--set", "count=2", "--set", "count=3", "--out", str(out)])
-    assert args.func(args) == 2 and "given twice" in capsys.readouterr().err
+    assert main(["render", str(TINY), "--set", "count=2", "--set", "count=3", "--out", str(out)]) == 2
+    assert "given twice" in capsys.readouterr().err
 
 
 def test_cli_new_unknown_template_exits_2(tmp_path, capsys):
-    args = _parser().parse_args(["new", "no_such_template", "Part 1", "--out", str(tmp_path)])
-    assert args.func(args) == 2
+    assert main(["new", "no_such_template", "Part 1", "--out", str(tmp_path)]) == 2
     assert "unknown template 'no_such_template'" in capsys.readouterr().err
 
 

@@ -17,17 +17,23 @@ __all__ = ["ELEMENTS", "ElementType", "QuadratureRule", "get_element", "Mesh", "
            "hot_spot_stress", "linearize", "hot_spot_concentration", "SNCurve", "sn_curve", "thickness_factor",
            "miner_damage", "fatigue_check", "static_check", "CheckResult", "grid_convergence"]
 
-from toolkit.assess.paths import PointLocator, sample, raw_along, line, polyline, arc, edge_path
+from toolkit.core.locate import PointLocator
+from toolkit.assess.sampling import sample, raw_along
+from toolkit.assess.paths import line, polyline, arc, edge_path
 from toolkit.recovery.spr import recover_spr
 from toolkit.assess.indicator import error_indicator
 
 __all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "edge_path", "recover_spr",
             "error_indicator"]
 
-from toolkit.io.neutral import read_results, write_results, write_vtu
+from toolkit.io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
 
-from toolkit.fem.solver import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402 (module toolkit.solve stays reachable)
+from toolkit.fem import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402
 
 __all__ += ["Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]
+
+from toolkit import compat as _compat  # noqa: E402  (version 0.1 module names, with a FutureWarning)
+
+_compat.install()

@@ -16,17 +16,23 @@ new TEMPLATE NAME --out DIR
 demo [--out reports] [--recovery-only]
     The recovery demo, then every workbook rendered with its defaults.
 
-On bad input every command exits with code 2 after one line
-``error: <reason>`` on stderr, and writes no output file.  Each subcommand is
-added by one ``_add_<name>`` function, so new commands are one function each.
+Exit codes: 0 done (a FAIL in a check is still a written report); 2 bad
+input (a :class:`toolkit.errors.StresspathError` or an ``OSError``: one line
+``error: <reason>`` on stderr, no output file written); 1 a workbook cell
+failed (one line; the executed notebook holds the traceback), or an internal
+error: anything else is a bug in the toolkit, shown with its traceback and a
+request to report it; 130 interrupted.  Each subcommand is added by one
+``_add_<name>`` function, so new commands are one function each.
 """
 from __future__ import annotations
 
 import argparse
 import sys
 import time
+import traceback
 from pathlib import Path
 
+from toolkit.errors import StresspathError, WorkbookExecutionError
 from toolkit.recovery.methods import METHODS as RECOVERY_METHODS, recover
 
 #: Recovery methods by their command-line name, with a one-line description (from the registry
@@ -99,7 +105,7 @@ def _progress(args, stages):
 
 
 def _read(args, prog):
-    from toolkit.io.neutral import read_results
+    from toolkit.io import read_results
 
     prog.start("read")
     mesh, field = read_results(args.results)
@@ -125,7 +131,7 @@ def _recover_stage(args, field, prog):
 # Commands
 # ---------------------------------------------------------------------------
 def _cmd_recover(args) -> int:
-    from toolkit.io.neutral import write_nodal_csv
+    from toolkit.io import write_nodal_csv
 
     prog = _progress(args, 3)
     try:
@@ -140,7 +146,7 @@ def _cmd_recover(args) -> int:
 
 
 def _cmd_export_vtu(args) -> int:
-    from toolkit.io.neutral import write_vtu
+    from toolkit.io import write_vtu
 
     prog = _progress(args, 3 if args.method != "none" else 2)
     try:
@@ -159,8 +165,8 @@ def _cmd_demo(args) -> int:
     rendered with its defaults into OUT/<workbook>/."""
     from pathlib import Path
 
+    from toolkit.workbook.create import demo as render_all
     from toolkit.workbook.recovery_demo import run_demo
-    from toolkit.workbook.runner import demo as render_all
 
     out = Path(args.out)
     print("== recovery demo ==")
@@ -170,6 +176,35 @@ def _cmd_demo(args) -> int:
     print("\n== workbooks ==")
     render_all(out, progress=False)
     print(f"\nreports in {out}/: open <workbook>/<workbook>.html in a browser")
+    return 0
+
+
+def _cmd_render(args) -> int:
+    """Exit code 0 done, 1 a cell failed, 2 bad input (one line on stderr; see :func:`main`)."""
+    from toolkit.errors import ParameterError
+    from toolkit.workbook.execute import render
+    from toolkit.workbook.parameters import parse_assignment
+
+    given = {}
+    for a in args.assignments:
+        k, v = parse_assignment(a)
+        if k in given:
+            raise ParameterError(f"--set {k} given twice")
+        given[k] = v
+    r = render(args.workbook, args.out, params=given, params_file=args.params, timeout=args.timeout,
+               progress=not args.quiet)
+    checks = r.summary["checks"]
+    fails = sum(c["status"] == "FAIL" for c in checks)
+    print(f"wrote {r.notebook}, {r.html}, {r.summary_path} in {r.seconds:.1f} s "
+          f"(inputs {r.summary['inputs_hash']}; {len(checks)} checks, {fails} FAIL)")
+    return 0
+
+
+def _cmd_new(args) -> int:
+    from toolkit.workbook.create import new_workbook
+
+    p = new_workbook(args.template, args.name, args.out)
+    print(f"wrote {p}")
     return 0
 
 
@@ -209,6 +244,30 @@ def _add_demo(sub):
     p.set_defaults(func=_cmd_demo)
 
 
+def _add_render(sub):
+    p = sub.add_parser("render", help="run a workbook and write notebook, HTML report and summary.json",
+                       description="Run a workbook with parameters; write <name>.ipynb, <name>.html "
+                                   "and summary.json into --out.")
+    p.add_argument("workbook", help="workbook name in workbooks/ or path to an .ipynb")
+    p.add_argument("--set", dest="assignments", action="append", default=[], metavar="NAME=VALUE",
+                   help="set a parameter (value read as JSON where possible, else as text); repeatable")
+    p.add_argument("--params", metavar="FILE.json", help="JSON object of parameter values (--set wins)")
+    p.add_argument("--out", required=True, metavar="DIR", help="output folder")
+    p.add_argument("--timeout", type=float, default=600, metavar="S", help="seconds allowed per cell (600)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.set_defaults(func=_cmd_render)
+
+
+def _add_new(sub):
+    p = sub.add_parser("new", help="start a calculation from a template workbook",
+                       description="Copy a template workbook to DIR/NAME.ipynb with outputs cleared "
+                                   "and the component set to NAME.")
+    p.add_argument("template", help="template name in workbooks/")
+    p.add_argument("name", help="component name (also the file name)")
+    p.add_argument("--out", required=True, metavar="DIR", help="output folder")
+    p.set_defaults(func=_cmd_new)
+
+
 def build_parser() -> argparse.ArgumentParser:
     parser = argparse.ArgumentParser(prog="python -m toolkit",
                                      description="Stresspath: from integration-point stresses to continuous "
@@ -216,10 +275,8 @@ def build_parser() -> argparse.ArgumentParser:
     from toolkit import __version__
     parser.add_argument("--version", action="version", version=f"stresspath {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    for add in (_add_recover, _add_export_vtu, _add_demo):
+    for add in (_add_recover, _add_export_vtu, _add_demo, _add_render, _add_new):
         add(sub)
-    from toolkit.workbook.runner import add_commands as _add_workbook_commands
-    _add_workbook_commands(sub)
     return parser
 
 
@@ -227,8 +284,21 @@ def _one_line(e: BaseException) -> str:
     return " ".join(str(e).split()) or type(e).__name__
 
 
+def _report_bug(e: BaseException) -> int:
+    """An exception that is not the user's: the traceback, and who to tell."""
+    from toolkit import __version__
+
+    traceback.print_exception(e, file=sys.stderr)
+    print(f"error: internal error in Stresspath {__version__} ({type(e).__name__}), not a problem with your "
+          "input; please report it with the command line and the traceback above", file=sys.stderr)
+    return 1
+
+
 def main(argv=None) -> int:
-    """Run the command line; returns the exit code (0 success, 2 bad input)."""
+    """Run the command line; returns the exit code (see the module notes).
+
+    Only the toolkit's own errors (:class:`toolkit.errors.StresspathError`)
+    and ``OSError`` are the user's to fix; any other exception is a bug."""
     parser = build_parser()
     try:
         args = parser.parse_args(argv)
@@ -239,12 +309,17 @@ def main(argv=None) -> int:
         return 2
     try:
         return int(args.func(args) or 0)
-    except (ValueError, OSError, RuntimeError) as e:
+    except WorkbookExecutionError as e:          # a cell failed: the executed notebook shows where
+        print(f"error: {_one_line(e)}", file=sys.stderr)
+        return 1
+    except (StresspathError, OSError) as e:
         print(f"error: {_one_line(e)}", file=sys.stderr)
         return 2
     except KeyboardInterrupt:
         print("error: interrupted", file=sys.stderr)
         return 130
+    except Exception as e:                       # noqa: BLE001 -- anything else is a bug: show it
+        return _report_bug(e)
 
 
 if __name__ == "__main__":

@@ -65,7 +65,7 @@ def parse_source(text: str, name: str):
 
 
 def build(name: str, run: bool = True) -> Path:
-    from toolkit.workbook.runner import render
+    from toolkit.workbook import render
 
     src = SRC / f"{name}.py"
     nb = parse_source(src.read_text(encoding="utf-8"), name)

@@ -21,6 +21,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core import stress as _stress
 
 __all__ = [
@@ -40,35 +41,6 @@ IIW_2016 = "IIW recommendations (Hobbacher 2016, XIII-2460-13)"
 # ---------------------------------------------------------------------------
 # Check result
 # ---------------------------------------------------------------------------
-def _plain(v):
-    """JSON-friendly copy of a value (numpy scalars and arrays to Python)."""
-    if isinstance(v, dict):
-        return {str(k): _plain(x) for k, x in v.items()}
-    if isinstance(v, (list, tuple)):
-        return [_plain(x) for x in v]
-    if isinstance(v, np.ndarray):
-        return _plain(v.tolist())
-    if isinstance(v, np.generic):
-        return v.item()
-    if isinstance(v, float) and not math.isfinite(v):
-        return "inf" if v > 0 else ("-inf" if v < 0 else "nan")
-    if isinstance(v, SNCurve):
-        return v.to_dict()
-    return v
-
-
-def _fmt(v):
-    if isinstance(v, (float, np.floating)):
-        return f"{float(v):.6g}"
-    if isinstance(v, np.ndarray):
-        if v.dtype.kind == "f":     # 6 significant digits, like the scalars (not solver round-off)
-            return np.array2string(v, threshold=8, separator=" ", formatter={"float_kind": lambda x: f"{x:.6g}"})
-        return np.array2string(v, threshold=8)
-    if isinstance(v, SNCurve):
-        return v.label()
-    return str(v)
-
-
 @dataclass
 class CheckResult:
     """Outcome of one check: ``utilization = value / limit``, ``PASS`` if <= 1.
@@ -92,9 +64,9 @@ class CheckResult:
         self.value = float(self.value)
         self.limit = float(self.limit)
         if not math.isfinite(self.value):
-            raise ValueError(f"check {self.name!r}: value is {self.value}")
+            raise InputError(f"check {self.name!r}: value is {self.value}")
         if not (math.isfinite(self.limit) and self.limit > 0):
-            raise ValueError(f"check {self.name!r}: limit must be positive and finite, got {self.limit}")
+            raise InputError(f"check {self.name!r}: limit must be positive and finite, got {self.limit}")
 
     @property
     def utilization(self) -> float:
@@ -110,10 +82,12 @@ class CheckResult:
 
     def rows(self):
         """(label, text) rows of the table shown by ``__repr__`` and ``_repr_html_``."""
+        from toolkit.report.format import fmt  # display delegates to the report layer
+
         u = f" {self.unit}" if self.unit and self.unit != "-" else ""
         rows = [("value", f"{self.value:.6g}{u}"), ("limit", f"{self.limit:.6g}{u}"),
                 ("utilization", f"{self.utilization:.3f}"), ("status", self.status)]
-        rows += [(f"input: {k}", _fmt(v)) for k, v in self.inputs.items()]
+        rows += [(f"input: {k}", v.label() if isinstance(v, SNCurve) else fmt(v, 6)) for k, v in self.inputs.items()]
         rows += [("note", n) for n in self.notes]
         rows.append(("caution", self.cautions))
         return rows
@@ -130,8 +104,11 @@ class CheckResult:
                 f"{html.escape(self.status)}</caption>{body}</table>")
 
     def to_dict(self) -> dict:
+        """JSON-ready record; inputs by :func:`toolkit.report.format.plain` (NaN and infinity as text)."""
+        from toolkit.report.format import plain  # display delegates to the report layer
+
         return {"name": self.name, "value": self.value, "limit": self.limit, "utilization": self.utilization,
-                "status": self.status, "unit": self.unit, "inputs": _plain(self.inputs),
+                "status": self.status, "unit": self.unit, "inputs": plain(self.inputs, f"check {self.name!r} inputs"),
                 "notes": list(self.notes), "cautions": self.cautions}
 
 
@@ -166,15 +143,15 @@ class SNCurve:
         for k in ("fat", "m1", "knee_cycles", "n_ref"):
             v = getattr(self, k)
             if not (isinstance(v, (int, float, np.integer, np.floating)) and math.isfinite(v) and v > 0):
-                raise ValueError(f"S-N curve {self.name!r}: {k} must be a positive number, got {v!r}")
+                raise InputError(f"S-N curve {self.name!r}: {k} must be a positive number, got {v!r}")
             object.__setattr__(self, k, float(v))
         if self.m2 is not None:
             if not (isinstance(self.m2, (int, float, np.integer, np.floating)) and math.isfinite(self.m2)
                     and self.m2 > 0):
-                raise ValueError(f"S-N curve {self.name!r}: m2 must be a positive number or None, got {self.m2!r}")
+                raise InputError(f"S-N curve {self.name!r}: m2 must be a positive number or None, got {self.m2!r}")
             object.__setattr__(self, "m2", float(self.m2))
         if self.stress not in ("normal", "shear"):
-            raise ValueError(f"S-N curve {self.name!r}: stress must be 'normal' or 'shear', got {self.stress!r}")
+            raise InputError(f"S-N curve {self.name!r}: stress must be 'normal' or 'shear', got {self.stress!r}")
 
     @classmethod
     def from_dict(cls, d: dict) -> "SNCurve":
@@ -182,12 +159,12 @@ class SNCurve:
         if isinstance(d, SNCurve):
             return d
         if not isinstance(d, dict):
-            raise ValueError(f"an S-N curve must be an SNCurve or a dict, got {type(d).__name__}")
+            raise InputError(f"an S-N curve must be an SNCurve or a dict, got {type(d).__name__}")
         unknown = set(d) - _CURVE_KEYS
         if unknown:
-            raise ValueError(f"S-N curve dict: unknown key(s) {sorted(unknown)}; allowed: {sorted(_CURVE_KEYS)}")
+            raise InputError(f"S-N curve dict: unknown key(s) {sorted(unknown)}; allowed: {sorted(_CURVE_KEYS)}")
         if "fat" not in d:
-            raise ValueError("S-N curve dict needs 'fat' (stress range at n_ref cycles)")
+            raise InputError("S-N curve dict needs 'fat' (stress range at n_ref cycles)")
         d = dict(d)
         d.setdefault("name", f"user FAT {d['fat']}")
         return cls(**d)
@@ -213,7 +190,7 @@ class SNCurve:
         """Cycles to failure for stress range(s) ``Δσ`` (``inf`` where no damage)."""
         s = np.asarray(stress_range, dtype=float)
         if not np.all(np.isfinite(s)) or np.any(s < 0):
-            raise ValueError(f"S-N curve {self.name!r}: stress ranges must be finite and >= 0, got {stress_range}")
+            raise InputError(f"S-N curve {self.name!r}: stress ranges must be finite and >= 0, got {stress_range}")
         sk = self.knee_stress
         with np.errstate(divide="ignore"):
             above = self.n_ref * (self.fat / s) ** self.m1
@@ -228,7 +205,7 @@ class SNCurve:
         """Stress range at ``cycles`` (the inverse of :meth:`life`; the knee stress beyond the knee if m2 is None)."""
         n = np.asarray(cycles, dtype=float)
         if not np.all(np.isfinite(n)) or np.any(n <= 0):
-            raise ValueError(f"S-N curve {self.name!r}: cycles must be positive and finite, got {cycles}")
+            raise InputError(f"S-N curve {self.name!r}: cycles must be positive and finite, got {cycles}")
         sk = self.knee_stress
         above = self.fat * (self.n_ref / n) ** (1.0 / self.m1)
         below = np.full_like(n, sk) if self.m2 is None else sk * (self.knee_cycles / n) ** (1.0 / self.m2)
@@ -239,7 +216,7 @@ class SNCurve:
         """The curve with every resistance stress multiplied by ``factor`` (e.g. ``f(t)``, ``1/γM``)."""
         f = float(factor)
         if not (math.isfinite(f) and f > 0):
-            raise ValueError(f"scale factor must be positive, got {factor}")
+            raise InputError(f"scale factor must be positive, got {factor}")
         return replace(self, fat=self.fat * f, name=f"{self.name} x {f:.4g}" + (f" ({why})" if why else ""))
 
 
@@ -247,14 +224,14 @@ def load_sn_data(path=None) -> dict:
     """The S-N data file as a dict (default ``data/sn_curves.json``)."""
     p = Path(path) if path is not None else SN_DATA_PATH
     if not p.is_file():
-        raise ValueError(f"S-N curve data file not found: {p}")
+        raise InputError(f"S-N curve data file not found: {p}")
     try:
         data = json.loads(p.read_text(encoding="utf-8"))
     except json.JSONDecodeError as e:
-        raise ValueError(f"{p}: not valid JSON ({e})") from None
+        raise InputError(f"{p}: not valid JSON ({e})") from None
     for key in ("source", "edition", "reference_cycles", "families", "unit"):
         if key not in data:
-            raise ValueError(f"{p}: missing top-level key {key!r}")
+            raise InputError(f"{p}: missing top-level key {key!r}")
     return data
 
 
@@ -272,13 +249,13 @@ def sn_curve(fat, stress="normal", amplitude="constant", path=None) -> SNCurve:
     data = load_sn_data(path)
     fams = data["families"]
     if stress not in fams:
-        raise ValueError(f"stress must be one of {sorted(fams)}, got {stress!r}")
+        raise InputError(f"stress must be one of {sorted(fams)}, got {stress!r}")
     fam = fams[stress]
     if amplitude not in fam["m2"]:
-        raise ValueError(f"amplitude must be one of {sorted(fam['m2'])}, got {amplitude!r}")
+        raise InputError(f"amplitude must be one of {sorted(fam['m2'])}, got {amplitude!r}")
     classes = [float(c) for c in fam["fat"]]
     if float(fat) not in classes:
-        raise ValueError(f"FAT {fat} is not a {stress}-stress class of {data['source']}: "
+        raise InputError(f"FAT {fat} is not a {stress}-stress class of {data['source']}: "
                          f"{', '.join(f'{c:g}' for c in classes)}; for another value pass a dict to SNCurve.from_dict")
     return SNCurve(name=f"FAT {float(fat):g} {stress} ({amplitude} amplitude)", fat=float(fat), m1=fam["m1"],
                    knee_cycles=fam["knee_cycles"], m2=fam["m2"][amplitude], n_ref=data["reference_cycles"],
@@ -290,7 +267,7 @@ def _curve(curve) -> SNCurve:
         return curve
     if isinstance(curve, dict):
         return SNCurve.from_dict(curve)
-    raise ValueError(f"curve must be an SNCurve (see sn_curve(fat, amplitude=...)) or a dict, got {curve!r}")
+    raise InputError(f"curve must be an SNCurve (see sn_curve(fat, amplitude=...)) or a dict, got {curve!r}")
 
 
 # ---------------------------------------------------------------------------
@@ -319,22 +296,22 @@ def thickness_factor(thickness, joint=None, n=None, t_ref=25.0, toe_distance=Non
     at or below ``t_ref``); otherwise ``t_eff = t``.  Lengths in mm.
     """
     if (joint is None) == (n is None):
-        raise ValueError(f"thickness_factor: give exactly one of joint= (one of {sorted(THICKNESS_EXPONENTS)}) or n=")
+        raise InputError(f"thickness_factor: give exactly one of joint= (one of {sorted(THICKNESS_EXPONENTS)}) or n=")
     if joint is not None:
         if joint not in THICKNESS_EXPONENTS:
-            raise ValueError(f"unknown joint category {joint!r}; choose one of {sorted(THICKNESS_EXPONENTS)}")
+            raise InputError(f"unknown joint category {joint!r}; choose one of {sorted(THICKNESS_EXPONENTS)}")
         n = THICKNESS_EXPONENTS[joint][0]
     t = float(thickness)
     n = float(n)
     if not (math.isfinite(t) and t > 0):
-        raise ValueError(f"thickness must be positive, got {thickness}")
+        raise InputError(f"thickness must be positive, got {thickness}")
     if not (math.isfinite(n) and 0 <= n <= 1):
-        raise ValueError(f"thickness exponent n must lie in [0, 1], got {n}")
+        raise InputError(f"thickness exponent n must lie in [0, 1], got {n}")
     t_eff = t
     if toe_distance is not None:
         L = float(toe_distance)
         if not (math.isfinite(L) and L > 0):
-            raise ValueError(f"toe_distance must be positive, got {toe_distance}")
+            raise InputError(f"toe_distance must be positive, got {toe_distance}")
         if L / t <= 2.0:
             t_eff = 0.5 * L
     return (t_ref / t_eff) ** n if t_eff > t_ref else 1.0
@@ -347,12 +324,12 @@ def _histogram(stress_ranges, cycles):
     s = np.atleast_1d(np.asarray(stress_ranges, dtype=float))
     n = np.atleast_1d(np.asarray(cycles, dtype=float))
     if s.ndim != 1 or s.shape != n.shape:
-        raise ValueError(f"stress ranges {s.shape} and cycles {n.shape} must be 1D of equal length")
+        raise InputError(f"stress ranges {s.shape} and cycles {n.shape} must be 1D of equal length")
     for name, a in (("stress range", s), ("cycle count", n)):
         bad = ~(np.isfinite(a) & (a >= 0))
         if bad.any():
             i = int(np.flatnonzero(bad)[0])
-            raise ValueError(f"histogram row {i}: {name} {a[i]} must be finite and >= 0")
+            raise InputError(f"histogram row {i}: {name} {a[i]} must be finite and >= 0")
     return s, n
 
 
@@ -368,7 +345,7 @@ def miner_damage(stress_ranges, cycles, curve, gamma_F=1.0, gamma_M=1.0, thickne
     s, n = _histogram(stress_ranges, cycles)
     for k, v in (("gamma_F", gamma_F), ("gamma_M", gamma_M), ("thickness_factor", thickness_factor)):
         if not (math.isfinite(float(v)) and float(v) > 0):
-            raise ValueError(f"{k} must be positive, got {v}")
+            raise InputError(f"{k} must be positive, got {v}")
     design = c.scaled(thickness_factor / gamma_M) if (thickness_factor != 1.0 or gamma_M != 1.0) else c
     sd = gamma_F * s
     N = np.atleast_1d(design.life(sd))
@@ -390,7 +367,7 @@ def fatigue_check(stress_ranges, cycles, curve, gamma_F=1.0, gamma_M=1.0, thickn
     D, per = miner_damage(stress_ranges, cycles, c, gamma_F, gamma_M, thickness_factor)
     dl = float(damage_limit)
     if not (math.isfinite(dl) and dl > 0):
-        raise ValueError(f"damage_limit must be positive, got {damage_limit}")
+        raise InputError(f"damage_limit must be positive, got {damage_limit}")
     s, n = _histogram(stress_ranges, cycles)
     notes = [f"design curve: FAT {c.fat:g} x f(t) {thickness_factor:.4g} / gammaM {gamma_M:g} = "
              f"{c.fat * thickness_factor / gamma_M:.4g} {c.unit}; design ranges = gammaF {gamma_F:g} x ranges"]
@@ -432,19 +409,19 @@ def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mise
     """
     crit = {"von mises": "von Mises", "max principal": "max principal"}.get(str(criterion).lower())
     if crit is None:
-        raise ValueError(f"criterion must be 'von Mises' or 'max principal', got {criterion!r}")
+        raise InputError(f"criterion must be 'von Mises' or 'max principal', got {criterion!r}")
     fy, sf = float(yield_strength), float(safety_factor)
     if not (math.isfinite(fy) and fy > 0):
-        raise ValueError(f"yield_strength must be positive, got {yield_strength}")
+        raise InputError(f"yield_strength must be positive, got {yield_strength}")
     if not (math.isfinite(sf) and sf > 0):
-        raise ValueError(f"safety_factor must be positive, got {safety_factor}")
+        raise InputError(f"safety_factor must be positive, got {safety_factor}")
     if components is not None:
         eq = _stress.von_mises(peak_stress, components) if crit == "von Mises" else \
             _stress.max_abs_principal(peak_stress, components)
     else:
         eq = np.asarray(peak_stress, dtype=float)
         if eq.size == 0 or not np.all(np.isfinite(eq)):
-            raise ValueError(f"peak_stress must be finite numbers, got {peak_stress}")
+            raise InputError(f"peak_stress must be finite numbers, got {peak_stress}")
     eq = np.atleast_1d(eq)
     k = int(np.argmax(np.abs(eq).ravel()))
     value = abs(float(eq.ravel()[k]))

@@ -17,6 +17,8 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = ["ConvergenceResult", "grid_convergence", "representative_size"]
 
 
@@ -27,7 +29,7 @@ def representative_size(n_cells, volume, dim) -> float:
     """Representative cell size ``h = (volume / n_cells)^(1/dim)`` (Celik et al. 2008, eq. 1)."""
     n, v, d = float(n_cells), float(volume), int(dim)
     if not (n > 0 and v > 0 and d in (1, 2, 3)):
-        raise ValueError(f"representative_size: need n_cells > 0, volume > 0, dim in 1..3; got {n_cells}, {volume}, {dim}")
+        raise InputError(f"representative_size: need n_cells > 0, volume > 0, dim in 1..3; got {n_cells}, {volume}, {dim}")
     return (v / n) ** (1.0 / d)
 
 
@@ -108,7 +110,7 @@ def _observed_order(e21, e32, r21, r32, tol, maxiter):
     for it in range(1, maxiter + 1):
         a, b = r21**p - s, r32**p - s
         if not (a > 0 and b > 0):
-            raise ValueError(f"grid_convergence: the order iteration left its domain at p = {p:.4g} "
+            raise InputError(f"grid_convergence: the order iteration left its domain at p = {p:.4g} "
                              "(r^p - s <= 0); the data do not define an observed order")
         q = math.log(a / b)
         signed = lnR + q
@@ -118,7 +120,7 @@ def _observed_order(e21, e32, r21, r32, tol, maxiter):
         p = p_new
         if p == 0.0:
             break
-    raise ValueError(f"grid_convergence: the fixed-point iteration for the observed order did not converge in "
+    raise InputError(f"grid_convergence: the fixed-point iteration for the observed order did not converge in "
                      f"{maxiter} iterations (last p = {p:.6g})")
 
 
@@ -150,16 +152,16 @@ def grid_convergence(values, sizes, safety_factor=1.25, tol=1e-12, maxiter=500, 
     phi = np.asarray(values, dtype=float)
     h = np.asarray(sizes, dtype=float)
     if phi.ndim != 1 or h.shape != phi.shape:
-        raise ValueError(f"grid_convergence: values {phi.shape} and sizes {h.shape} must be 1D of equal length")
+        raise InputError(f"grid_convergence: values {phi.shape} and sizes {h.shape} must be 1D of equal length")
     if len(phi) < 3:
-        raise ValueError(f"grid_convergence needs three or more grids, got {len(phi)}")
+        raise InputError(f"grid_convergence needs three or more grids, got {len(phi)}")
     if not (np.all(np.isfinite(phi)) and np.all(np.isfinite(h)) and np.all(h > 0)):
-        raise ValueError("grid_convergence: values must be finite and sizes positive and finite")
+        raise InputError("grid_convergence: values must be finite and sizes positive and finite")
     if not np.all(np.diff(h) > 0):
-        raise ValueError(f"grid_convergence: sizes must increase strictly, finest first; got {h.tolist()}")
+        raise InputError(f"grid_convergence: sizes must increase strictly, finest first; got {h.tolist()}")
     fs = float(safety_factor)
     if not fs > 0:
-        raise ValueError(f"safety_factor must be positive, got {safety_factor}")
+        raise InputError(f"safety_factor must be positive, got {safety_factor}")
     ratios = h[1:] / h[:-1]
     warns = []
 
@@ -168,7 +170,7 @@ def grid_convergence(values, sizes, safety_factor=1.25, tol=1e-12, maxiter=500, 
         r21, r32 = ratios[k], ratios[k + 1]
         e21, e32 = f2 - f1, f3 - f2
         if e21 == 0 or e32 == 0:
-            raise ValueError(f"grid_convergence: grids {k + 1}-{k + 3} give equal values ({f1}, {f2}, {f3}); "
+            raise InputError(f"grid_convergence: grids {k + 1}-{k + 3} give equal values ({f1}, {f2}, {f3}); "
                              "the observed order is undefined")
         return (f1, f2, f3, r21, r32, e21, e32) + _observed_order(e21, e32, r21, r32, tol, maxiter)
 
@@ -189,7 +191,7 @@ def grid_convergence(values, sizes, safety_factor=1.25, tol=1e-12, maxiter=500, 
     rp21, rp32 = r21**p, r32**p
     ext = (rp21 * f1 - f2) / (rp21 - 1.0)
     if f1 == 0 or f2 == 0 or ext == 0:
-        raise ValueError("grid_convergence: a relative error is undefined because a value is zero; "
+        raise InputError("grid_convergence: a relative error is undefined because a value is zero; "
                          "shift or rescale the quantity")
     ea21 = abs((f1 - f2) / f1)
     ea32 = abs((f2 - f3) / f2)

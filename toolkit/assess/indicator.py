@@ -16,17 +16,17 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core import stress as _stress
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
-from toolkit.core.fields import GaussField, NodalField
-from toolkit.assess.paths import RowLayout
+from toolkit.core.fields import GaussField, NodalField, RowLayout
 
 __all__ = ["ErrorIndicator", "error_indicator", "compliance_matrix", "indicator_rule"]
 
 
 def compliance_matrix(components, E, nu, plane="stress") -> np.ndarray:
     """Isotropic compliance ``C`` with ``σ^T C σ = σ:ε`` (tensor shears) in the
-    order of ``components`` (a stress set of :mod:`toolkit.stress`).
+    order of ``components`` (a stress set of :mod:`toolkit.core.stress`).
 
     ``(sxx, syy, sxy)`` with ``plane="stress"``: ``1/E [[1, -ν, 0], [-ν, 1,
     0], [0, 0, 2(1+ν)]]``; with ``plane="strain"`` (``szz = ν(sxx+syy)`` not
@@ -36,11 +36,11 @@ def compliance_matrix(components, E, nu, plane="stress") -> np.ndarray:
     (Hooke's law, e.g. Timoshenko & Goodier ch. 1).
     """
     if not (np.isfinite(E) and E > 0):
-        raise ValueError(f"E must be > 0, got {E}")
+        raise InputError(f"E must be > 0, got {E}")
     if not (np.isfinite(nu) and -1 < nu < 0.5):
-        raise ValueError(f"nu must lie in (-1, 0.5), got {nu}")
+        raise InputError(f"nu must lie in (-1, 0.5), got {nu}")
     if plane not in ("stress", "strain"):
-        raise ValueError(f"plane must be 'stress' or 'strain', got {plane!r}")
+        raise InputError(f"plane must be 'stress' or 'strain', got {plane!r}")
     kind, _ = _stress.component_set(components)
     comps = tuple(components)
     normal = {"sxx", "syy", "szz"}
@@ -98,7 +98,7 @@ class ErrorIndicator:
         ``ē = target_eta * sqrt((||σ_h||^2 + ||e||^2) / cells)`` (ZZ 1987,
         equal-error criterion): elements with ``ξ_K > 1`` need refining."""
         if not (0 < target_eta < 1):
-            raise ValueError(f"target_eta must lie in (0, 1), got {target_eta}")
+            raise InputError(f"target_eta must lie in (0, 1), got {target_eta}")
         ebar = target_eta * np.sqrt((self.norm**2 + self.error**2) / len(self.per_element))
         return self.per_element / ebar
 
@@ -112,32 +112,10 @@ class ErrorIndicator:
         """Map of the per-element error over a 2D mesh (cells drawn as their
         corner polygons).  ``quantity``: ``"error"`` (``||e||_K``) or
         ``"density"`` (``||e||_K / sqrt(area_K)``, independent of element
-        size).  Returns the axes; matplotlib is imported here."""
-        import matplotlib.pyplot as plt
-        from matplotlib.collections import PolyCollection
+        size).  Returns the axes (drawn by :func:`toolkit.report.plots.plot_indicator`)."""
+        from toolkit.report.plots import plot_indicator
 
-        if self.mesh.dim != 2:
-            raise ValueError("ErrorIndicator.plot maps 2D meshes only")
-        if quantity not in ("error", "density"):
-            raise ValueError(f"quantity must be 'error' or 'density', got {quantity!r}")
-        if ax is None:
-            _, ax = plt.subplots()
-        polys, vals = [], []
-        for b in self.mesh.blocks:
-            xy = self.mesh.nodes[b.cells[:, :b.element.ncorners]]
-            v = self.per_block[b.name]
-            if quantity == "density":
-                v = v / np.sqrt(self.mesh.volumes(b.name))
-            polys.extend(xy)
-            vals.append(v)
-        pc = PolyCollection(polys, array=np.concatenate(vals), cmap=cmap, edgecolors=edgecolor)
-        ax.add_collection(pc)
-        ax.autoscale_view()
-        ax.set_aspect("equal")
-        ax.set_title(f"ZZ error estimate ({self.measure}), eta = {100 * self.eta:.3g} %")
-        if colorbar:
-            ax.figure.colorbar(pc, ax=ax, label="||e||_K" if quantity == "error" else "||e||_K / sqrt(A_K)")
-        return ax
+        return plot_indicator(self, ax, quantity, cmap, edgecolor, colorbar)
 
 
 def error_indicator(field: GaussField, recovered: NodalField, E=None, nu=None, plane="stress",
@@ -164,28 +142,28 @@ def error_indicator(field: GaussField, recovered: NodalField, E=None, nu=None, p
     would sample σ* - σ_h only at the centroid, where it nearly vanishes.)
     """
     if not isinstance(field, GaussField):
-        raise ValueError("error_indicator needs the finite-element stress as a GaussField")
+        raise InputError("error_indicator needs the finite-element stress as a GaussField")
     if not isinstance(recovered, NodalField):
-        raise ValueError("error_indicator needs the recovered stress as a NodalField")
+        raise InputError("error_indicator needs the recovered stress as a NodalField")
     mesh = field.mesh
     if recovered.mesh is not mesh:
-        raise ValueError("the recovered field belongs to another mesh than the Gauss field")
+        raise InputError("the recovered field belongs to another mesh than the Gauss field")
     if set(recovered.components) != set(field.components):
-        raise ValueError(f"components differ: field {field.components}, recovered {recovered.components}")
+        raise InputError(f"components differ: field {field.components}, recovered {recovered.components}")
     order = [recovered.components.index(c) for c in field.components]
     nc = field.ncomponents
     if compliance is not None and (E is not None or nu is not None):
-        raise ValueError("give either compliance or E and nu, not both")
+        raise InputError("give either compliance or E and nu, not both")
     if compliance is not None:
         W = np.asarray(compliance, dtype=float)
         if W.shape != (nc, nc) or not np.allclose(W, W.T, rtol=1e-10, atol=0):
-            raise ValueError(f"compliance must be a symmetric {nc}x{nc} matrix for {field.components}")
+            raise InputError(f"compliance must be a symmetric {nc}x{nc} matrix for {field.components}")
         if np.linalg.eigvalsh(W).min() <= 0:
-            raise ValueError("compliance must be positive definite")
+            raise InputError("compliance must be positive definite")
         measure = "energy"
     elif E is not None or nu is not None:
         if E is None or nu is None:
-            raise ValueError("the energy norm needs both E and nu")
+            raise InputError("the energy norm needs both E and nu")
         W = compliance_matrix(field.components, E, nu, plane)
         measure = "energy"
     else:
@@ -204,7 +182,7 @@ def error_indicator(field: GaussField, recovered: NodalField, E=None, nu=None, p
         g = mesh.geometry(b.name, rule)
         dV = g.dV_cq * (2 * np.pi * g.x_cqi[..., 0] if axisymmetric else 1.0)
         if axisymmetric and np.any(g.x_cqi[..., 0] < 0):
-            raise ValueError(f"block {b.name}: axisymmetric integration needs x (the radius) >= 0")
+            raise InputError(f"block {b.name}: axisymmetric integration needs x (the radius) >= 0")
         rows = layout.lookup(b.cells, b.regions[:, None])                    # (c, k)
         star = np.einsum("qk,cka->cqa", g.N_qk, vals[rows])
         diff = star - V

@@ -11,6 +11,8 @@ import math
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = ["kirsch_kt", "kirsch_ligament", "heywood_kt_net", "fillet_kt", "peterson_q", "fatigue_notch_factor"]
 
 
@@ -34,7 +36,7 @@ def heywood_kt_net(d_over_w: float) -> float:
     Pilkey, Peterson's Stress Concentration Factors, 3rd ed., §4.3; from
     memory).  Valid for 0 <= d/W < 1."""
     if not 0 <= d_over_w < 1:
-        raise ValueError(f"d/W must lie in [0, 1), got {d_over_w}")
+        raise InputError(f"d/W must lie in [0, 1), got {d_over_w}")
     return 2.0 + (1.0 - d_over_w) ** 3
 
 
@@ -68,14 +70,14 @@ def fillet_kt(shape: str, load: str, large_width: float, small_width: float, fil
     0.1 <= h/r <= 20 (h = (D - d)/2); outside it a ValueError."""
     key = (shape, load)
     if key not in _FILLET_FITS:
-        raise ValueError(f"no handbook fit for a {shape} part in {load}; have {sorted(_FILLET_FITS)}")
+        raise InputError(f"no handbook fit for a {shape} part in {load}; have {sorted(_FILLET_FITS)}")
     D, d, r = float(large_width), float(small_width), float(fillet_radius)
     if not (D > d > 0 and r > 0):
-        raise ValueError(f"need D > d > 0 and r > 0, got D={D}, d={d}, r={r}")
+        raise InputError(f"need D > d > 0 and r > 0, got D={D}, d={d}, r={r}")
     h = (D - d) / 2
     q = h / r
     if not 0.1 <= q <= 20:
-        raise ValueError(f"h/r = {q:.3g} lies outside the fit's range 0.1..20")
+        raise InputError(f"h/r = {q:.3g} lies outside the fit's range 0.1..20")
     rows = _FILLET_FITS[key][0 if q <= 2 else 1]
     x = 2 * h / D
     C = [a + b * math.sqrt(q) + c * q for a, b, c in rows]
@@ -88,7 +90,7 @@ def peterson_q(fillet_radius: float, tensile_strength: float) -> float:
     (the fit quoted in Shigley's Mechanical Engineering Design; from
     memory).  Intended for steels with Su roughly 340..1700 MPa."""
     if fillet_radius <= 0 or tensile_strength <= 0:
-        raise ValueError("fillet radius and tensile strength must be positive")
+        raise InputError("fillet radius and tensile strength must be positive")
     a = 0.0254 * (2070.0 / tensile_strength) ** 1.8
     return 1.0 / (1.0 + a / fillet_radius)
 

@@ -29,6 +29,8 @@ import itertools
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = [
     "QuadratureRule", "ElementType", "ELEMENTS", "get_element",
     "gauss_legendre_rule", "simplex_rule", "rule_of_degree", "local_field_exponents", "local_field_matrix",
@@ -152,7 +154,7 @@ def simplex_rule(shape: str, npoints: int) -> QuadratureRule:
         name, degree, groups = SIMPLEX_RULES[(shape, npoints)]
     except KeyError:
         have = sorted(n for s, n in SIMPLEX_RULES if s == shape)
-        raise ValueError(f"no {shape} rule with {npoints} points; available: {have}") from None
+        raise InputError(f"no {shape} rule with {npoints} points; available: {have}") from None
     pts, w = (_sym_tri if shape == "tri" else _sym_tet)(groups)
     return QuadratureRule(name, shape, pts, w, degree)
 
@@ -165,7 +167,7 @@ def rule_of_degree(shape: str, degree: int) -> QuadratureRule:
         return gauss_legendre_rule(n, 2 if shape == "quad" else 3)
     cands = sorted((d, n) for (s, n), (_, d, _) in SIMPLEX_RULES.items() if s == shape and d >= degree)
     if not cands:
-        raise ValueError(f"no stored {shape} rule is exact to degree {degree}")
+        raise InputError(f"no stored {shape} rule is exact to degree {degree}")
     return simplex_rule(shape, cands[0][1])
 
 
@@ -224,7 +226,7 @@ def local_field_exponents(shape: str, npoints: int) -> tuple[np.ndarray, int]:
         if npoints in table:
             p = table[npoints]
             return np.array(_total_exponents(p, dim)), p
-    raise ValueError(
+    raise InputError(
         f"no local field is defined for {npoints} points on a {shape} element; "
         "give values at a complete rule (quad/hex: n^d points; tri: 1, 3 or 6; tet: 1, 4 or 10)")
 
@@ -232,23 +234,34 @@ def local_field_exponents(shape: str, npoints: int) -> tuple[np.ndarray, int]:
 # --------------------------------------------------------------------------
 # Element types
 # --------------------------------------------------------------------------
-@dataclass(frozen=True, eq=False)
+@dataclass(frozen=True, eq=False, kw_only=True)
 class ElementType:
-    """A reference element.
+    """A reference element: every per-type fact in one declaration (keyword
+    fields; see ``_build`` for the nine types and DEVELOPERS.md for how to add one).
 
     Attributes
     ----------
     name : str           ``"quad8"`` etc.
     shape : str          reference domain (``"quad"``, ``"tri"``, ``"hex"``, ``"tet"``)
-    nodes : ndarray (k, dim)   reference node coordinates in node order
-    exponents : ndarray (k, dim)   monomials spanning the shape-function space
-    degree : int         highest exponent of a single coordinate in the space
+    nodes : ndarray (k, dim)   reference node coordinates in node order (VTK's order)
+    exponents : ndarray (k, dim)   monomials spanning the shape-function space;
+                         ``degree`` (highest exponent of one coordinate) and
+                         ``total_degree`` are derived from them
     ncorners : int       corner nodes come first
     full_rule_points, reduced_rule_points : int   Gauss rules (see ``full_rule``)
     mass_rule_points : int   rule exact for N^T N det J on straight-edged,
                          flat-faced elements (used by the L2 projection)
     edges : tuple of tuples   local nodes of each edge (corner, corner[, mid])
-    faces : tuple of tuples   local nodes of each face (3D) or the element (2D)
+    faces : tuple of tuples   local nodes of each face (3D only)
+    vtk_cell_type : str  the VTK cell type's name as meshio spells it (the node
+                         order is VTK's, so no permutation is needed)
+    plot_triangles : tuple of triples   local nodes of the sub-triangles that
+                         draw a 2D cell (contours, mesh plots); empty in 3D
+    projection_preconditioner : str   what ``preconditioner="auto"`` of the L2
+                         projection uses on a mesh of this type only:
+                         ``"element"`` (fewer iterations) or ``"jacobi"``
+                         (serendipity types, where the element preconditioner
+                         saves iterations but not sparse products)
     """
 
     name: str
@@ -261,6 +274,9 @@ class ElementType:
     mass_rule_points: int
     edges: tuple
     faces: tuple = ()
+    vtk_cell_type: str
+    plot_triangles: tuple = ()
+    projection_preconditioner: str = "element"
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self):
@@ -271,7 +287,13 @@ class ElementType:
         object.__setattr__(self, "nodes", nodes)
         object.__setattr__(self, "exponents", exps)
         if exps.shape != nodes.shape:
-            raise ValueError(f"{self.name}: {len(exps)} monomials for {len(nodes)} nodes")
+            raise InputError(f"{self.name}: {len(exps)} monomials for {len(nodes)} nodes")
+        tris = tuple(tuple(int(a) for a in t) for t in self.plot_triangles)
+        if any(len(t) != 3 or not all(0 <= a < len(nodes) for a in t) for t in tris):
+            raise InputError(f"{self.name}: plot_triangles must be triples of local node numbers")
+        object.__setattr__(self, "plot_triangles", tris)
+        if self.projection_preconditioner not in ("element", "jacobi"):
+            raise InputError(f"{self.name}: projection_preconditioner must be 'element' or 'jacobi'")
 
     # -- basic facts
     @property
@@ -308,33 +330,34 @@ class ElementType:
     # -- shape functions
     def shape_functions(self, xi) -> np.ndarray:
         """N[p, a]: every shape function at every point ``xi`` (p, dim)."""
-        xi = self._check_points(xi)
+        xi = self.check_points(xi)
         P, _ = _monomials(xi, self.exponents)
         return P @ self._coeffs
 
     def shape_gradients(self, xi) -> np.ndarray:
         """dN[p, a, i] = dN_a / dxi_i at every point ``xi`` (p, dim)."""
-        xi = self._check_points(xi)
+        xi = self.check_points(xi)
         _, dP = _monomials(xi, self.exponents)
         return np.matmul(dP.transpose(0, 2, 1), self._coeffs).transpose(0, 2, 1)
 
     def evaluate(self, xi):
         """Both ``N`` (p, k) and ``dN`` (p, k, dim) in one call."""
-        xi = self._check_points(xi)
+        xi = self.check_points(xi)
         P, dP = _monomials(xi, self.exponents)
         return P @ self._coeffs, np.matmul(dP.transpose(0, 2, 1), self._coeffs).transpose(0, 2, 1)
 
-    def _check_points(self, xi):
+    def check_points(self, xi):
+        """Natural coordinates as a float array (points, dim); one point may be given as (dim,)."""
         xi = np.asarray(xi, dtype=float)
         if xi.ndim == 1:
             xi = xi[None, :]
         if xi.ndim != 2 or xi.shape[1] != self.dim:
-            raise ValueError(f"{self.name}: natural coordinates must be shaped (points, {self.dim}), got {xi.shape}")
+            raise InputError(f"{self.name}: natural coordinates must be shaped (points, {self.dim}), got {xi.shape}")
         return xi
 
     def contains(self, xi, tol: float = 1e-8) -> np.ndarray:
         """True where natural coordinates lie inside the reference element."""
-        xi = self._check_points(xi)
+        xi = self.check_points(xi)
         if self.is_simplex:
             return np.all(xi >= -tol, axis=1) & (xi.sum(axis=1) <= 1 + tol)
         return np.all(np.abs(xi) <= 1 + tol, axis=1)
@@ -349,14 +372,14 @@ class ElementType:
         points (``4`` on a quad means 2x2)."""
         if isinstance(which, QuadratureRule):
             if which.shape != self.shape:
-                raise ValueError(f"{self.name}: a {which.shape} rule does not fit a {self.shape} element")
+                raise InputError(f"{self.name}: a {which.shape} rule does not fit a {self.shape} element")
             return which
         if isinstance(which, str):
             try:
                 n = {"full": self.full_rule_points, "reduced": self.reduced_rule_points,
                      "mass": self.mass_rule_points}[which]
             except KeyError:
-                raise ValueError(f"{self.name}: unknown rule {which!r}; use 'full', 'reduced', 'mass' or a point count") from None
+                raise InputError(f"{self.name}: unknown rule {which!r}; use 'full', 'reduced', 'mass' or a point count") from None
         else:
             n = int(which)
         key = ("rule", n)
@@ -366,7 +389,7 @@ class ElementType:
             else:
                 per = round(n ** (1 / self.dim))
                 if per ** self.dim != n:
-                    raise ValueError(f"{self.name}: a tensor Gauss rule has n^{self.dim} points, not {n}")
+                    raise InputError(f"{self.name}: a tensor Gauss rule has n^{self.dim} points, not {n}")
                 self._cache[key] = gauss_legendre_rule(per, self.dim)
         return self._cache[key]
 
@@ -402,34 +425,60 @@ def _hex_nodes():
 
 
 def _build():
-    els = {}
+    """The nine element types, one declaration each.  Rules are point counts
+    (``4`` on a quad is 2x2); the mass rule is exact for N^T N det J on
+    straight-edged, flat-faced cells."""
     qc, qm = _quad_nodes()
     qedges4 = ((0, 1), (1, 2), (2, 3), (3, 0))
     qedges8 = ((0, 1, 4), (1, 2, 5), (2, 3, 6), (3, 0, 7))
-    els["quad4"] = ElementType("quad4", "quad", qc, _tensor_exponents(1, 2), 4, 4, 1, 4, qedges4)
-    serend2 = _total_exponents(2, 2) + [(2, 1), (1, 2)]
-    els["quad8"] = ElementType("quad8", "quad", qc + qm, serend2, 4, 9, 4, 9, qedges8)
-    els["quad9"] = ElementType("quad9", "quad", qc + qm + [(0, 0)], _tensor_exponents(2, 2), 4, 9, 4, 9, qedges8)
     tc = [(0, 0), (1, 0), (0, 1)]
     tm = [(0.5, 0), (0.5, 0.5), (0, 0.5)]
-    els["tri3"] = ElementType("tri3", "tri", tc, _total_exponents(1, 2), 3, 1, 1, 3, ((0, 1), (1, 2), (2, 0)))
-    els["tri6"] = ElementType("tri6", "tri", tc + tm, _total_exponents(2, 2), 3, 3, 3, 6,
-                              ((0, 1, 3), (1, 2, 4), (2, 0, 5)))
     ec = [(0, 0, 0), (1, 0, 0), (0, 1, 0), (0, 0, 1)]
     tedges = ((0, 1), (1, 2), (2, 0), (0, 3), (1, 3), (2, 3))
     em = [tuple((np.array(ec[a]) + np.array(ec[b])) / 2) for a, b in tedges]
     tfaces = ((0, 2, 1), (0, 1, 3), (1, 2, 3), (0, 3, 2))
-    els["tet4"] = ElementType("tet4", "tet", ec, _total_exponents(1, 3), 4, 1, 1, 4, tedges, tfaces)
-    els["tet10"] = ElementType("tet10", "tet", ec + em, _total_exponents(2, 3), 4, 4, 4, 14,
-                               tuple(e + (4 + i,) for i, e in enumerate(tedges)), tfaces)
     hc, hedges, hm = _hex_nodes()
     hfaces = ((0, 3, 2, 1), (4, 5, 6, 7), (0, 1, 5, 4), (1, 2, 6, 5), (2, 3, 7, 6), (3, 0, 4, 7))
-    els["hex8"] = ElementType("hex8", "hex", hc, _tensor_exponents(1, 3), 8, 8, 1, 27, tuple(hedges), hfaces)
-    s20 = [e for e in _tensor_exponents(2, 3) if _serendipity3(e)]
-    # straight-edged hex20: N^T N det J has degree 6 per coordinate -> 4x4x4
-    els["hex20"] = ElementType("hex20", "hex", hc + hm, s20, 8, 27, 8, 64,
-                               tuple(e + (8 + i,) for i, e in enumerate(hedges)), hfaces)
-    return els
+    types = [
+        ElementType(name="tri3", shape="tri", nodes=tc, exponents=_total_exponents(1, 2), ncorners=3,
+                    full_rule_points=1, reduced_rule_points=1, mass_rule_points=3,
+                    edges=((0, 1), (1, 2), (2, 0)), vtk_cell_type="triangle", plot_triangles=((0, 1, 2),)),
+        ElementType(name="tri6", shape="tri", nodes=tc + tm, exponents=_total_exponents(2, 2), ncorners=3,
+                    full_rule_points=3, reduced_rule_points=3, mass_rule_points=6,
+                    edges=((0, 1, 3), (1, 2, 4), (2, 0, 5)), vtk_cell_type="triangle6",
+                    plot_triangles=((0, 3, 5), (3, 1, 4), (5, 4, 2), (3, 4, 5))),
+        ElementType(name="quad4", shape="quad", nodes=qc, exponents=_tensor_exponents(1, 2), ncorners=4,
+                    full_rule_points=4, reduced_rule_points=1, mass_rule_points=4,
+                    edges=qedges4, vtk_cell_type="quad", plot_triangles=((0, 1, 2), (0, 2, 3))),
+        ElementType(name="quad8", shape="quad", nodes=qc + qm,
+                    exponents=_total_exponents(2, 2) + [(2, 1), (1, 2)], ncorners=4,
+                    full_rule_points=9, reduced_rule_points=4, mass_rule_points=9,
+                    edges=qedges8, vtk_cell_type="quad8",
+                    plot_triangles=((0, 4, 7), (4, 1, 5), (5, 2, 6), (6, 3, 7), (4, 5, 7), (5, 6, 7)),
+                    projection_preconditioner="jacobi"),
+        ElementType(name="quad9", shape="quad", nodes=qc + qm + [(0, 0)], exponents=_tensor_exponents(2, 2),
+                    ncorners=4, full_rule_points=9, reduced_rule_points=4, mass_rule_points=9,
+                    edges=qedges8, vtk_cell_type="quad9",
+                    plot_triangles=((0, 4, 8), (4, 1, 8), (1, 5, 8), (5, 2, 8), (2, 6, 8), (6, 3, 8), (3, 7, 8),
+                                    (7, 0, 8))),
+        ElementType(name="tet4", shape="tet", nodes=ec, exponents=_total_exponents(1, 3), ncorners=4,
+                    full_rule_points=1, reduced_rule_points=1, mass_rule_points=4,
+                    edges=tedges, faces=tfaces, vtk_cell_type="tetra"),
+        ElementType(name="tet10", shape="tet", nodes=ec + em, exponents=_total_exponents(2, 3), ncorners=4,
+                    full_rule_points=4, reduced_rule_points=4, mass_rule_points=14,
+                    edges=tuple(e + (4 + i,) for i, e in enumerate(tedges)), faces=tfaces,
+                    vtk_cell_type="tetra10"),
+        ElementType(name="hex8", shape="hex", nodes=hc, exponents=_tensor_exponents(1, 3), ncorners=8,
+                    full_rule_points=8, reduced_rule_points=1, mass_rule_points=27,
+                    edges=tuple(hedges), faces=hfaces, vtk_cell_type="hexahedron"),
+        # straight-edged hex20: N^T N det J has degree 6 per coordinate -> 4x4x4
+        ElementType(name="hex20", shape="hex", nodes=hc + hm,
+                    exponents=[e for e in _tensor_exponents(2, 3) if _serendipity3(e)], ncorners=8,
+                    full_rule_points=27, reduced_rule_points=8, mass_rule_points=64,
+                    edges=tuple(e + (8 + i,) for i, e in enumerate(hedges)), faces=hfaces,
+                    vtk_cell_type="hexahedron20", projection_preconditioner="jacobi"),
+    ]
+    return {et.name: et for et in types}
 
 
 def _serendipity3(e) -> bool:
@@ -448,7 +497,7 @@ def get_element(name) -> ElementType:
     try:
         return ELEMENTS[str(name).lower()]
     except KeyError:
-        raise ValueError(f"unknown element type {name!r}; known: {', '.join(ELEMENTS)}") from None
+        raise InputError(f"unknown element type {name!r}; known: {', '.join(ELEMENTS)}") from None
 
 
 def local_field_matrix(element, data_points, targets) -> np.ndarray:
@@ -458,13 +507,13 @@ def local_field_matrix(element, data_points, targets) -> np.ndarray:
     ``targets`` (t, dim).  Used to move integration-point values to a finer
     rule (projection right-hand side) or to the nodes (extrapolation)."""
     et = get_element(element)
-    data_points = et._check_points(data_points)
-    targets = et._check_points(targets)
+    data_points = et.check_points(data_points)
+    targets = et.check_points(targets)
     exps, _ = local_field_exponents(et.shape, len(data_points))
     Pd, _ = _monomials(data_points, exps)
     cond = np.linalg.cond(Pd)
     if not np.isfinite(cond) or cond > 1e10:
-        raise ValueError(f"{et.name}: the {len(data_points)} integration points do not determine a unique "
+        raise InputError(f"{et.name}: the {len(data_points)} integration points do not determine a unique "
                          f"local field (condition number {cond:.3g}); are two points at the same place?")
     Pt, _ = _monomials(targets, exps)
     return Pt @ np.linalg.inv(Pd)

@@ -11,12 +11,12 @@ from __future__ import annotations
 
 import numpy as np
 
+from toolkit.errors import InputError
+from toolkit.core.elements import ELEMENTS, get_element
 from toolkit.core.mesh import Mesh
 
 __all__ = ["rectangle_mesh", "box_mesh"]
 
-_ORDER = {"tri3": 1, "quad4": 1, "tri6": 2, "quad8": 2, "quad9": 2,
-          "tet4": 1, "hex8": 1, "tet10": 2, "hex20": 2}
 
 
 def _lattice(counts, lengths, origin, distort, seed, order, grading=None):
@@ -63,7 +63,6 @@ def _number(shape):
 def _recentre_midnodes(nodes, cells, etype):
     """Put every mid-side node at the middle of its (straight) edge, and
     centre nodes at the mean of their corners, after corners moved."""
-    from toolkit.core.elements import ELEMENTS
 
     et = ELEMENTS[etype]
     for e in et.edges:
@@ -91,10 +90,10 @@ def rectangle_mesh(etype="quad4", nx=4, ny=4, size=(1.0, 1.0), origin=(0.0, 0.0)
     callable of cell-centre coordinates (m, 2) returning region ids.
     """
     if etype not in ("tri3", "tri6", "quad4", "quad8", "quad9"):
-        raise ValueError(f"rectangle_mesh: etype must be a 2D type, got {etype!r}")
+        raise InputError(f"rectangle_mesh: etype must be a 2D type, got {etype!r}")
     if nx < 1 or ny < 1:
-        raise ValueError(f"rectangle_mesh: nx and ny must be >= 1, got {nx}, {ny}")
-    o = _ORDER[etype]
+        raise InputError(f"rectangle_mesh: nx and ny must be >= 1, got {nx}, {ny}")
+    o = get_element(etype).degree    # node intervals per cell edge on the lattice
     pts, shape = _lattice((nx, ny), size, origin, distort, seed, o, grading)
     idx = _number(shape)
     I, J = (a.ravel() * o for a in np.meshgrid(np.arange(nx), np.arange(ny), indexing="xy"))
@@ -127,8 +126,8 @@ def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 
     """Structured mesh of a box; ``etype`` one of tet4, tet10, hex8, hex20
     (tetrahedra: six per cube, Kuhn subdivision, all positively oriented)."""
     if etype not in ("tet4", "tet10", "hex8", "hex20"):
-        raise ValueError(f"box_mesh: etype must be a 3D type, got {etype!r}")
-    o = _ORDER[etype]
+        raise InputError(f"box_mesh: etype must be a 3D type, got {etype!r}")
+    o = get_element(etype).degree    # node intervals per cell edge on the lattice
     pts, shape = _lattice((nx, ny, nz), size, origin, distort, seed, o)
     idx = _number(shape)
     I, J, K = (a.ravel() * o for a in np.meshgrid(np.arange(nx), np.arange(ny), np.arange(nz), indexing="ij"))
@@ -141,7 +140,6 @@ def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 
     if etype.startswith("hex"):
         cells = np.stack(corners, 1)
         if etype == "hex20":
-            from toolkit.core.elements import ELEMENTS
             lat = lambda a: idx(*a)
             mids = []
             cc = np.array([(0, 0, 0), (1, 0, 0), (1, 1, 0), (0, 1, 0), (0, 0, 1), (1, 0, 1), (1, 1, 1), (0, 1, 1)])
@@ -162,7 +160,6 @@ def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 
                 t = [0, b, a, 6]
             tets.append(t)
         cells_list = []
-        from toolkit.core.elements import ELEMENTS
         for t in tets:
             c = [corners[i] for i in t]
             if etype == "tet10":

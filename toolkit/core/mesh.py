@@ -16,6 +16,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.arrays import readonly
 from toolkit.core.elements import ElementType, QuadratureRule, get_element
 
@@ -85,15 +86,33 @@ class Mesh:
     node_ids : (n,) ints, optional (default 0..n-1)
     cell_ids : dict ``{type name: (m,) ints}``, optional (default: running
         numbers over the blocks in the given order)
+
+    Examples
+    --------
+    Two 2 x 1 quad4 cells side by side (corners counter-clockwise):
+
+    >>> mesh = Mesh([[0, 0], [2, 0], [2, 1], [0, 1], [4, 0], [4, 1]],
+    ...             {"quad4": [[0, 1, 2, 3], [1, 4, 5, 2]]})
+    >>> mesh
+    Mesh(6 nodes, 2 quad4, 1 region(s), 2D)
+    >>> mesh.volumes().tolist()
+    [2.0, 2.0]
+
+    A cell whose corners run clockwise is refused before any work is done:
+
+    >>> Mesh([[0, 0], [0, 1], [1, 1], [1, 0]], {"quad4": [[0, 1, 2, 3]]})
+    Traceback (most recent call last):
+    ...
+    toolkit.errors.InputError: block quad4, cell 0 (element 0): inverted element, det J = -0.25 at a full-rule point ...
     """
 
     def __init__(self, nodes, blocks, regions=None, node_ids=None, cell_ids=None):
         nodes = np.asarray(nodes, dtype=float)
         if nodes.ndim != 2 or nodes.shape[1] not in (2, 3):
-            raise ValueError(f"nodes must be shaped (n, 2) or (n, 3), got {nodes.shape}")
+            raise InputError(f"nodes must be shaped (n, 2) or (n, 3), got {nodes.shape}")
         bad = ~np.isfinite(nodes).all(axis=1)
         if bad.any():
-            raise ValueError(f"node row {int(np.flatnonzero(bad)[0])} has a non-finite coordinate "
+            raise InputError(f"node row {int(np.flatnonzero(bad)[0])} has a non-finite coordinate "
                              f"({bad.sum()} such nodes)")
         n, dim = nodes.shape
         self.nodes = readonly(nodes)
@@ -101,61 +120,61 @@ class Mesh:
             node_ids = np.arange(n)
         node_ids = np.asarray(node_ids)
         if node_ids.shape != (n,) or not np.issubdtype(node_ids.dtype, np.integer):
-            raise ValueError(f"node_ids must be {n} integers, got shape {node_ids.shape} of {node_ids.dtype}")
+            raise InputError(f"node_ids must be {n} integers, got shape {node_ids.shape} of {node_ids.dtype}")
         if len(np.unique(node_ids)) != n:
-            raise ValueError("node_ids are not unique")
+            raise InputError("node_ids are not unique")
         self.node_ids = readonly(node_ids.astype(np.int64))
         if not isinstance(blocks, dict) or not blocks:
-            raise ValueError("blocks must be a non-empty dict {element type: cells}")
+            raise InputError("blocks must be a non-empty dict {element type: cells}")
         regions = regions or {}
         cell_ids = cell_ids or {}
         for key in list(regions) + list(cell_ids):
             if key not in blocks:
-                raise ValueError(f"regions/cell_ids given for block {key!r}, which is not in blocks")
+                raise InputError(f"regions/cell_ids given for block {key!r}, which is not in blocks")
         self._blocks: dict[str, CellBlock] = {}
         start = 0
         for name, conn in blocks.items():
             et = get_element(name)
             if et.name in self._blocks:
-                raise ValueError(f"block {et.name} given twice")
+                raise InputError(f"block {et.name} given twice")
             if et.dim != dim:
-                raise ValueError(f"block {et.name}: a {et.dim}D element in a mesh with {dim}D nodes")
+                raise InputError(f"block {et.name}: a {et.dim}D element in a mesh with {dim}D nodes")
             conn = np.asarray(conn)
             if conn.ndim != 2 or conn.shape[1] != et.nnodes:
-                raise ValueError(f"block {et.name}: cells must be shaped (m, {et.nnodes}), got {conn.shape}")
+                raise InputError(f"block {et.name}: cells must be shaped (m, {et.nnodes}), got {conn.shape}")
             if conn.size and not np.issubdtype(conn.dtype, np.integer):
                 if not np.all(conn == np.round(conn)):
-                    raise ValueError(f"block {et.name}: cell node indices must be integers")
+                    raise InputError(f"block {et.name}: cell node indices must be integers")
             conn = conn.astype(np.int64 if n > 2**31 - 1 else np.int32)
             m = len(conn)
             if m == 0:
-                raise ValueError(f"block {et.name} has no cells")
+                raise InputError(f"block {et.name} has no cells")
             lo, hi = conn.min(axis=1), conn.max(axis=1)
             out = np.flatnonzero((lo < 0) | (hi >= n))
             if out.size:
                 c = int(out[0])
                 eid = f" (element {int(cell_ids[name][c])})" if name in cell_ids else ""
-                raise ValueError(f"block {et.name}, cell {c}{eid}: node index out of range 0..{n - 1} "
+                raise InputError(f"block {et.name}, cell {c}{eid}: node index out of range 0..{n - 1} "
                                  f"({conn[c].tolist()}); {out.size} such cells")
             srt = np.sort(conn, axis=1)
             rep = np.flatnonzero((srt[:, 1:] == srt[:, :-1]).any(axis=1))
             if rep.size:
                 c = int(rep[0])
                 eid = f" (element {int(cell_ids[name][c])})" if name in cell_ids else ""
-                raise ValueError(f"block {et.name}, cell {c}{eid}: repeated node index ({conn[c].tolist()}); "
+                raise InputError(f"block {et.name}, cell {c}{eid}: repeated node index ({conn[c].tolist()}); "
                                  f"{rep.size} such cells")
             reg = np.asarray(regions.get(name, np.zeros(m, dtype=np.int64)))
             if reg.shape != (m,) or (reg.size and not np.issubdtype(reg.dtype, np.integer)):
-                raise ValueError(f"block {et.name}: regions must be {m} integers, got shape {reg.shape}")
+                raise InputError(f"block {et.name}: regions must be {m} integers, got shape {reg.shape}")
             ids = np.asarray(cell_ids.get(name, np.arange(start, start + m)))
             if ids.shape != (m,) or not np.issubdtype(ids.dtype, np.integer):
-                raise ValueError(f"block {et.name}: cell_ids must be {m} integers, got shape {ids.shape}")
+                raise InputError(f"block {et.name}: cell_ids must be {m} integers, got shape {ids.shape}")
             start += m
             self._blocks[et.name] = CellBlock(et, readonly(conn), readonly(reg.astype(np.int64)),
                                               readonly(ids.astype(np.int64)))
         all_ids = np.concatenate([b.ids for b in self._blocks.values()])
         if len(np.unique(all_ids)) != len(all_ids):
-            raise ValueError("cell ids are not unique across blocks")
+            raise InputError("cell ids are not unique across blocks")
         self._geometry_cache: dict = {}
         self._regions = self._used = None          # computed on first use (the arrays are read-only)
         for b in self._blocks.values():
@@ -183,7 +202,7 @@ class Mesh:
         try:
             return self._blocks[key]
         except KeyError:
-            raise ValueError(f"the mesh has no {key} block; it has {', '.join(self._blocks)}") from None
+            raise InputError(f"the mesh has no {key} block; it has {', '.join(self._blocks)}") from None
 
     @property
     def regions(self) -> np.ndarray:
@@ -213,7 +232,7 @@ class Mesh:
         b = self.block(name)
         et = b.element
         if isinstance(rule, np.ndarray):
-            pts, w = et._check_points(rule), None
+            pts, w = et.check_points(rule), None
         else:
             r = et.rule(rule)
             pts, w = r.points, r.weights
@@ -247,7 +266,7 @@ class Mesh:
                 cells = np.flatnonzero(bad.any(axis=1))
                 c = int(cells[0])
                 kind = "inverted" if (g.detJ_cq[c] < 0).any() else "degenerate"
-                raise ValueError(f"{b.label(c)}: {kind} element, det J = {g.detJ_cq[c].min():.3g} "
+                raise InputError(f"{b.label(c)}: {kind} element, det J = {g.detJ_cq[c].min():.3g} "
                                  f"at a {which}-rule point (check node order and coordinates); "
                                  f"{cells.size} such cells")
 

@@ -22,6 +22,8 @@ from typing import NamedTuple
 
 import numpy as np
 
+from toolkit.errors import InputError
+
 __all__ = [
     "PLANE", "PLANE_ZZ", "SOLID", "AXISYMMETRIC", "COMPONENT_SETS", "stress_kind", "component_set", "to_tensor", "from_tensor",
     "von_mises", "principal", "Principal", "tresca", "hydrostatic", "max_abs_principal",
@@ -62,14 +64,14 @@ def component_set(components) -> tuple[str, tuple[int, ...]]:
     """
     comps = tuple(str(c) for c in components)
     if len(set(comps)) != len(comps):
-        raise ValueError(f"stress components {comps} contain a repeated name")
+        raise InputError(f"stress components {comps} contain a repeated name")
     for kind, canon in COMPONENT_SETS.items():
         if set(comps) == set(canon):
             return kind, tuple(comps.index(c) for c in canon)
     for names, (kind, _) in ALIASES.items():
         if set(comps) == set(names):
             return kind, tuple(comps.index(c) for c in names)
-    raise ValueError(
+    raise InputError(
         f"unknown stress component set {comps}: expected (in any order) {PLANE} for plane stress, "
         f"{PLANE_ZZ} for plane strain, {AXISYMMETRIC} for axisymmetric, or {SOLID} for 3D")
 
@@ -78,10 +80,10 @@ def _values(values, components, name):
     kind, order = component_set(components)
     v = np.asarray(values, dtype=float)
     if v.ndim == 0 or v.shape[-1] != len(order):
-        raise ValueError(f"{name}: values shaped {v.shape} must end with {len(order)} components {tuple(components)}")
+        raise InputError(f"{name}: values shaped {v.shape} must end with {len(order)} components {tuple(components)}")
     if not np.all(np.isfinite(v)):
         bad = np.argwhere(~np.isfinite(v))[0]
-        raise ValueError(f"{name}: non-finite stress at index {tuple(int(i) for i in bad)}")
+        raise InputError(f"{name}: non-finite stress at index {tuple(int(i) for i in bad)}")
     return kind, v[..., list(order)]
 
 
@@ -101,7 +103,7 @@ def from_tensor(T, components=SOLID) -> np.ndarray:
     component_set(components)
     T = np.asarray(T, dtype=float)
     if T.shape[-2:] != (3, 3):
-        raise ValueError(f"from_tensor: tensors must be shaped (..., 3, 3), got {T.shape}")
+        raise InputError(f"from_tensor: tensors must be shaped (..., 3, 3), got {T.shape}")
     ij = _ij(components)
     return np.stack([T[(...,) + ij[c]] for c in components], axis=-1)
 
@@ -212,12 +214,12 @@ def unit_tangent(tangent, name="tangent", tol=1e-6) -> np.ndarray:
     """Check that ``tangent`` (..., 2) holds unit vectors (within ``tol``) and return it as floats."""
     t = np.asarray(tangent, dtype=float)
     if t.ndim == 0 or t.shape[-1] != 2:
-        raise ValueError(f"{name} must be shaped (..., 2), got {t.shape}")
+        raise InputError(f"{name} must be shaped (..., 2), got {t.shape}")
     norm = np.linalg.norm(t, axis=-1)
     bad = ~(np.abs(norm - 1.0) <= tol)
     if bad.any():
         i = np.argwhere(np.atleast_1d(bad))[0]
-        raise ValueError(f"{name} at index {tuple(int(k) for k in i)} has length "
+        raise InputError(f"{name} at index {tuple(int(k) for k in i)} has length "
                          f"{np.atleast_1d(norm)[tuple(i)]:.6g}, expected a unit vector")
     return t
 
@@ -241,7 +243,7 @@ def rotate_2d(values, components, tangent) -> FrameStress:
     """
     kind, v = _values(values, components, "rotate_2d")
     if kind == "3d":
-        raise ValueError("rotate_2d needs a 2D stress state; for 3D use rotate(values, components, R)")
+        raise InputError("rotate_2d needs a 2D stress state; for 3D use rotate(values, components, R)")
     t = unit_tangent(tangent)
     tx, ty = t[..., 0], t[..., 1]
     sxx, syy, sxy = v[..., 0], v[..., 1], v[..., 2]
@@ -262,11 +264,11 @@ def rotate(values, components, R) -> np.ndarray:
     kind, _ = component_set(components)
     R = np.asarray(R, dtype=float)
     if R.shape[-2:] != (3, 3):
-        raise ValueError(f"rotate: R must be shaped (..., 3, 3), got {R.shape}")
+        raise InputError(f"rotate: R must be shaped (..., 3, 3), got {R.shape}")
     err = np.abs(R @ np.swapaxes(R, -1, -2) - np.eye(3)).max()
     if not err <= 1e-6:
-        raise ValueError(f"rotate: R is not orthonormal (|R R^T - I| = {err:.3g})")
+        raise InputError(f"rotate: R is not orthonormal (|R R^T - I| = {err:.3g})")
     if kind != "3d" and (np.abs(R[..., 2, :2]).max() > 1e-9 or np.abs(R[..., :2, 2]).max() > 1e-9):
-        raise ValueError(f"rotate: a {kind} stress state can only be rotated about the z axis")
+        raise InputError(f"rotate: a {kind} stress state can only be rotated about the z axis")
     Tp = R @ to_tensor(values, components) @ np.swapaxes(R, -1, -2)
     return from_tensor(Tp, tuple(components))

@@ -1,8 +1,15 @@
 """Layer 3: results in and out.  The neutral result folder (CSV files with a
 documented schema, point matching by coordinates), the same content as one
-``.npz`` file, nodal CSV and VTU export.  Imports only :mod:`toolkit.core`."""
-from toolkit.io.neutral import (FORMAT, POINT_TOL, VTK_CELL_TYPES, read_about, read_mesh, read_results,
-                                write_nodal_csv, write_results, write_vtu)
+``.npz`` file, nodal CSV and VTU export.  Imports only :mod:`toolkit.core`.
+
+Modules: ``files`` (text read, atomic write), ``table`` (one CSV table, read
+and written), ``about`` (the about record), ``points`` (integration points
+matched by position), ``npz`` (the ``.npz`` form), ``neutral`` (the result
+folder), ``export`` (nodal CSV and VTU)."""
+from toolkit.io.about import FORMAT
+from toolkit.io.export import VTK_CELL_TYPES, write_nodal_csv, write_vtu
+from toolkit.io.neutral import read_about, read_mesh, read_results, write_results
+from toolkit.io.points import POINT_TOL
 
 __all__ = ["FORMAT", "POINT_TOL", "VTK_CELL_TYPES", "read_results", "write_results", "read_mesh", "read_about",
            "write_nodal_csv", "write_vtu"]

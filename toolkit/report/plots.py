@@ -1,4 +1,5 @@
-"""Figures: mesh, raw (discontinuous) and smoothed contour plots.
+"""Figures: mesh, raw (discontinuous) and smoothed contour plots, fields
+along paths and the error indicator map.
 
 matplotlib is imported inside each function, so importing the toolkit does
 not need a display or a backend.  Colour maps are matplotlib's perceptually
@@ -9,20 +10,12 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.core.elements import local_field_matrix
+from toolkit.errors import InputError
+from toolkit.core.elements import get_element, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
 
-__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "SUBTRIANGLES"]
-
-# Local sub-triangles used to draw each 2D element type (node indices).
-SUBTRIANGLES = {
-    "tri3": [(0, 1, 2)],
-    "tri6": [(0, 3, 5), (3, 1, 4), (5, 4, 2), (3, 4, 5)],
-    "quad4": [(0, 1, 2), (0, 2, 3)],
-    "quad8": [(0, 4, 7), (4, 1, 5), (5, 2, 6), (6, 3, 7), (4, 5, 7), (5, 6, 7)],
-    "quad9": [(0, 4, 8), (4, 1, 8), (1, 5, 8), (5, 2, 8), (2, 6, 8), (6, 3, 8), (3, 7, 8), (7, 0, 8)],
-}
+__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "plot_indicator"]
 
 
 def _axes(ax):
@@ -35,7 +28,7 @@ def _axes(ax):
 
 def _need_2d(mesh):
     if mesh.dim != 2:
-        raise ValueError("contour plots are for 2D meshes; export a VTU file to view 3D models")
+        raise InputError("contour plots are for 2D meshes; export a VTU file to view 3D models")
 
 
 def plot_mesh(mesh: Mesh, ax=None, color="0.35", linewidth=0.4, label_regions=False):
@@ -68,7 +61,7 @@ def _triangulation(xy, cell_rows_by_block):
 
     tris = []
     for name, rows in cell_rows_by_block.items():
-        for t in SUBTRIANGLES[name]:
+        for t in get_element(name).plot_triangles:     # the type's declared drawing sub-triangles
             tris.append(rows[:, list(t)])
     return mtri.Triangulation(xy[:, 0], xy[:, 1], np.concatenate(tris))
 
@@ -149,3 +142,65 @@ def raw_vs_smoothed(field: GaussField, nodal: NodalField, component, figsize=(11
     contour_nodal(nodal, component, axes[1], levels, vmin=lo, vmax=hi,
                   title=f"{component}, smoothed ({nodal.method})")
     return fig
+
+
+def plot_path(result, ax=None, quantity="von_mises", label=None, **kwargs):
+    """Plot ``quantity`` (a name or a list of names) of a
+    :class:`~toolkit.assess.sampling.PathResult` against distance; raw curves
+    (``result.pieces``) are drawn element by element so their jumps show.
+    Returns the axes."""
+    import matplotlib.pyplot as plt
+
+    if ax is None:
+        _, ax = plt.subplots()
+    names = [quantity] if isinstance(quantity, str) else list(quantity)
+    for q in names:
+        y = result[q]
+        lab = label if (label is not None and len(names) == 1) else (f"{q} ({result.method})" if result.method else q)
+        if result.pieces:
+            line = None
+            for pc in result.pieces:
+                kw = dict(kwargs)
+                if line is not None:
+                    kw.setdefault("color", line.get_color())
+                (ln,) = ax.plot(result.distances[pc], y[pc], label=lab if line is None else "_nolegend_", **kw)
+                line = line or ln
+        else:
+            ax.plot(result.distances, y, label=lab, **kwargs)
+    ax.set_xlabel(f"distance along {result.label}")
+    ax.set_ylabel(names[0] if len(names) == 1 else "value")
+    ax.legend()
+    return ax
+
+
+def plot_indicator(ind, ax=None, quantity="error", cmap="viridis", edgecolor="none", colorbar=True):
+    """Map of the per-element error of an
+    :class:`~toolkit.assess.indicator.ErrorIndicator` over a 2D mesh (cells
+    drawn as their corner polygons).  ``quantity``: ``"error"``
+    (``||e||_K``) or ``"density"`` (``||e||_K / sqrt(area_K)``, independent
+    of element size).  Returns the axes."""
+    import matplotlib.pyplot as plt
+    from matplotlib.collections import PolyCollection
+
+    if ind.mesh.dim != 2:
+        raise InputError("ErrorIndicator.plot maps 2D meshes only")
+    if quantity not in ("error", "density"):
+        raise InputError(f"quantity must be 'error' or 'density', got {quantity!r}")
+    if ax is None:
+        _, ax = plt.subplots()
+    polys, vals = [], []
+    for b in ind.mesh.blocks:
+        xy = ind.mesh.nodes[b.cells[:, :b.element.ncorners]]
+        v = ind.per_block[b.name]
+        if quantity == "density":
+            v = v / np.sqrt(ind.mesh.volumes(b.name))
+        polys.extend(xy)
+        vals.append(v)
+    pc = PolyCollection(polys, array=np.concatenate(vals), cmap=cmap, edgecolors=edgecolor)
+    ax.add_collection(pc)
+    ax.autoscale_view()
+    ax.set_aspect("equal")
+    ax.set_title(f"ZZ error estimate ({ind.measure}), eta = {100 * ind.eta:.3g} %")
+    if colorbar:
+        ax.figure.colorbar(pc, ax=ax, label="||e||_K" if quantity == "error" else "||e||_K / sqrt(A_K)")
+    return ax

@@ -10,7 +10,11 @@ import html
 import os
 import platform
 
-__all__ = ["Table", "fmt", "inputs_table", "footer", "headless", "HEADLESS_ENV"]
+from toolkit.errors import InputError
+from toolkit.report.format import fmt
+from toolkit.report.summary import inputs_hash
+
+__all__ = ["Table", "inputs_table", "footer", "headless", "HEADLESS_ENV"]
 
 HEADLESS_ENV = "STRESSPATH_HEADLESS"
 
@@ -19,26 +23,9 @@ def headless() -> bool:
     """True when a workbook runs without a person at it (``render``, ``demo``,
     ``pytest --nbval``): live widgets and progress widgets are then left out,
     because their comm traffic can stall a headless notebook client and they
-    would be dropped from the report anyway.  Set by the runner through the
+    would be dropped from the report anyway.  Set by ``toolkit.workbook.render`` through the
     ``STRESSPATH_HEADLESS`` environment variable."""
     return os.environ.get(HEADLESS_ENV, "") not in ("", "0")
-
-
-def fmt(v, digits=4) -> str:
-    """A number to ``digits`` significant figures (ints as ints); text as is."""
-    if isinstance(v, bool) or v is None:
-        return str(v)
-    if isinstance(v, int):
-        return str(v)
-    try:
-        x = float(v)
-    except (TypeError, ValueError):
-        return str(v)
-    if x != x:
-        return "nan"
-    if x == 0:
-        return "0"
-    return f"{x:.{digits}g}"
 
 
 class Table:
@@ -49,7 +36,7 @@ class Table:
         self.rows = [[fmt(c, digits) for c in r] for r in rows]
         for i, r in enumerate(self.rows):
             if len(r) != len(self.headers):
-                raise ValueError(f"table row {i + 1} has {len(r)} cells for {len(self.headers)} headers")
+                raise InputError(f"table row {i + 1} has {len(r)} cells for {len(self.headers)} headers")
         self.title = title
 
     def __repr__(self):
@@ -80,7 +67,6 @@ def footer(params: dict) -> str:
     """Toolkit version, Python version and the inputs hash, so a checker can
     tell two runs apart."""
     from toolkit import __version__
-    from toolkit.workbook.runner import inputs_hash
 
     return (f"Stresspath {__version__} (Python {platform.python_version_tuple()[0]}."
             f"{platform.python_version_tuple()[1]}); inputs hash {inputs_hash(params)}")

@@ -8,9 +8,7 @@ the controls below it redraw the plot.  Mark panel cells
 """
 from __future__ import annotations
 
-import numpy as np
-
-from toolkit.assess.paths import raw_along, sample
+from toolkit.assess.sampling import raw_along, sample
 from toolkit.report.tables import headless
 
 __all__ = ["path_panel", "plot_path_comparison"]

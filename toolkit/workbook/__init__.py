@@ -1,13 +1,17 @@
-"""Layer 6: parameterised notebooks.  The parameters-cell grammar, injection,
-execution in a fresh kernel, the offline HTML report and ``summary.json``,
-``new`` and ``demo``."""
-from toolkit.workbook.runner import (INJECTED_TAG, PARAMETERS_TAG, SUMMARY_METADATA_KEY, WORKBOOKS_DIR, Parameter,
-                                     ParameterError, RenderResult, Summary, WorkbookError, WorkbookExecutionError,
-                                     add_commands, demo, inputs_hash, known_workbooks, new_workbook,
-                                     parse_assignment, parse_parameters, read_summary, render, workbook_dir,
-                                     workbook_parameters)
+"""Layer 6: parameterised notebooks.  The parameters-cell grammar
+(``parameters``), notebook files and injection (``notebook``), execution in a
+fresh kernel with ``summary.json`` (``execute``), the offline HTML report
+(``html``), ``new`` and ``demo`` (``create``); the summary record itself
+lives in :mod:`toolkit.report.summary`."""
+from toolkit.errors import ParameterError, WorkbookError, WorkbookExecutionError
+from toolkit.report.summary import SUMMARY_METADATA_KEY, Summary, inputs_hash, read_summary
+from toolkit.workbook.create import demo, new_workbook
+from toolkit.workbook.execute import RenderResult, render, workbook_dir
+from toolkit.workbook.notebook import (INJECTED_TAG, PARAMETERS_TAG, WORKBOOKS_DIR, known_workbooks,
+                                       workbook_parameters)
+from toolkit.workbook.parameters import Parameter, parse_assignment, parse_parameters
 
 __all__ = ["Summary", "inputs_hash", "workbook_dir", "render", "RenderResult", "new_workbook", "demo",
-           "add_commands", "parse_parameters", "parse_assignment", "workbook_parameters", "Parameter",
+           "parse_parameters", "parse_assignment", "workbook_parameters", "Parameter",
            "ParameterError", "WorkbookError", "WorkbookExecutionError", "read_summary", "known_workbooks",
            "WORKBOOKS_DIR", "SUMMARY_METADATA_KEY", "PARAMETERS_TAG", "INJECTED_TAG"]

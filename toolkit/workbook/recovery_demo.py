@@ -15,7 +15,7 @@ from pathlib import Path
 import numpy as np
 
 from toolkit.core.fields import GaussField
-from toolkit.io.neutral import write_nodal_csv
+from toolkit.io import write_nodal_csv
 from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
 from toolkit.recovery import average_nodal, project_l2

@@ -34,10 +34,11 @@ import toolkit as tk
 from toolkit import report
 from toolkit.report import plots
 from toolkit.assess.checks import fatigue_check, sn_curve, static_check, thickness_factor
-from toolkit.assess.paths import PointLocator, path_from_spec
+from toolkit.assess.paths import path_from_spec
+from toolkit.core.locate import PointLocator
 from toolkit.core.stress import rotate_2d, von_mises
 from toolkit.report.widgets import path_panel, plot_path_comparison
-from toolkit.workbook.runner import Summary, workbook_dir
+from toolkit.workbook import Summary, workbook_dir
 
 # %% tags=["parameters"]
 results = "../data/demo_bracket"   # neutral result folder or .npz file, relative to the workbook's folder

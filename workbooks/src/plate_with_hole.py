@@ -36,7 +36,7 @@ from toolkit.fem.solver import solve
 from toolkit.core.stress import von_mises
 from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
 from toolkit.report.widgets import path_panel, plot_path_comparison
-from toolkit.workbook.runner import Summary
+from toolkit.workbook import Summary
 
 # %% tags=["parameters"]
 width = 100.0            # mm, plate width W across the load; range: 0 < x <= 5000

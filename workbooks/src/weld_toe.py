@@ -37,7 +37,7 @@ from toolkit.fem.solver import solve
 from toolkit.core.stress import max_abs_principal
 from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
 from toolkit.report.widgets import path_panel, plot_path_comparison
-from toolkit.workbook.runner import Summary
+from toolkit.workbook import Summary
 
 # %% tags=["parameters"]
 plate_thickness = 12.0          # mm, main plate t; range: 2 <= x <= 200

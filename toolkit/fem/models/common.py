@@ -1,7 +1,7 @@
 """Building blocks of the parametric meshers.
 
 A model is assembled from mapped blocks: each block is the unit square meshed
-by :func:`toolkit.models.grid.rectangle_mesh` (which owns the connectivity of
+by :func:`toolkit.core.grid.rectangle_mesh` (which owns the connectivity of
 every element type), its lattice coordinates re-spaced along each direction by
 given element-boundary distributions (mid-side nodes at the parametric middle
 of their element), then mapped to the plane by the transfinite (Coons)
@@ -21,6 +21,7 @@ from dataclasses import dataclass, field
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import get_element
 from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
@@ -76,7 +77,7 @@ def join(*curves) -> Curve:
     pieces are dropped.  The parameter stays proportional to arc length."""
     cs = [c for c in curves if c.length > 0]
     if not cs:
-        raise ValueError("join: all pieces have zero length")
+        raise InputError("join: all pieces have zero length")
     L = np.array([c.length for c in cs])
     bounds = np.concatenate([[0.0], np.cumsum(L) / L.sum()])
 
@@ -105,7 +106,7 @@ def graded(length: float, first: float, last: float | None = None, growth: float
     (then constant), scaled to fit ``length`` exactly.  ``at="end"`` puts the
     fine end at 1 instead of 0."""
     if length <= 0 or first <= 0:
-        raise ValueError(f"graded: length and first size must be positive (got {length}, {first})")
+        raise InputError(f"graded: length and first size must be positive (got {length}, {first})")
     last = max(first, last if last is not None else length)
     if first >= length:
         sizes = np.array([length])
@@ -125,7 +126,7 @@ def graded(length: float, first: float, last: float | None = None, growth: float
     if at == "end":
         b = 1.0 - b[::-1]
     elif at != "start":
-        raise ValueError(f"graded: at must be 'start' or 'end', got {at!r}")
+        raise InputError(f"graded: at must be 'start' or 'end', got {at!r}")
     b[0], b[-1] = 0.0, 1.0
     return b
 
@@ -174,7 +175,7 @@ class Block:
         for a, b, what in ((P00, self.left.start, "bottom-left"), (P10, self.right.start, "bottom-right"),
                            (P01, self.left.end, "top-left"), (P11, self.right.end, "top-right")):
             if np.linalg.norm(a - b) > 1e-9 * max(1.0, np.abs(a).max()):
-                raise ValueError(f"Block: the {what} corner does not close ({a} vs {b})")
+                raise InputError(f"Block: the {what} corner does not close ({a} vs {b})")
         S, Tt = s[:, None], t[:, None]
         x = ((1 - Tt) * B + Tt * T + (1 - S) * L + S * R
              - ((1 - S) * (1 - Tt) * P00 + S * (1 - Tt) * P10 + (1 - S) * Tt * P01 + S * Tt * P11))
@@ -205,7 +206,7 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
 
     et = get_element(etype)
     if et.name not in QUAD_TYPES:
-        raise ValueError(f"element type must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"element type must be one of {QUAD_TYPES}, got {etype!r}")
     xs, cs, sets, regs = [], [], {}, []
     off = 0
     for blk in blocks:
@@ -266,12 +267,12 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
             named |= np.isin(bnd, v).all(axis=1)
     if not named.all():
         e = bnd[np.flatnonzero(~named)[0]]
-        raise ValueError(f"mesher: the blocks do not conform: boundary edge {e.tolist()} at "
+        raise InputError(f"mesher: the blocks do not conform: boundary edge {e.tolist()} at "
                          f"{mesh.nodes[e[0]].round(6).tolist()} lies on no named side "
                          f"({int((~named).sum())} such edges)")
     for k, v in edges.items():
         if len(v) == 0:
-            raise ValueError(f"mesher: named side {k!r} has no boundary edges")
+            raise InputError(f"mesher: named side {k!r} has no boundary edges")
     return mesh, edges, sets
 
 
@@ -305,7 +306,7 @@ def boundary_edges(mesh: Mesh) -> np.ndarray:
             out.append(b.cells[sel][:, list(loc)].astype(np.int64))
     widths = {o.shape[1] for o in out if len(o)}
     if len(widths) > 1:
-        raise ValueError("boundary_edges: the mesh mixes linear and quadratic element edges")
+        raise InputError("boundary_edges: the mesh mixes linear and quadratic element edges")
     return np.concatenate([o for o in out if o.shape[1] == max(widths)]) if widths else np.zeros((0, 2), np.int64)
 
 
@@ -346,7 +347,7 @@ def edges_on(mesh: Mesh, nodes, boundary=None) -> np.ndarray:
 # ---------------------------------------------------------------------------
 @dataclass(eq=False)
 class Model:
-    """A meshed model ready for :func:`toolkit.solve.solve`.
+    """A meshed model ready for :func:`toolkit.fem.solver.solve`.
 
     Attributes
     ----------
@@ -383,62 +384,7 @@ class Model:
 
     def plot(self, ax=None, show_loads=True, show_supports=True, legend=True):
         """Mesh (element edges drawn through mid-side nodes), named edges in
-        colour, load arrows and support markers.  Returns the axes."""
-        import matplotlib.pyplot as plt
-        from matplotlib.collections import LineCollection
-        from toolkit.fem.solver import Fixed, Roller, Displacement, Traction, Pressure, PointLoad, edge_quadrature
-
-        if ax is None:
-            _, ax = plt.subplots(figsize=(7, 5))
-        segs = []
-        for b in self.mesh.blocks:
-            for loc in b.element.edges:
-                pts = self.mesh.nodes[b.cells[:, [loc[0], loc[2], loc[1]] if len(loc) == 3 else list(loc)]]
-                segs.append(pts)
-        ax.add_collection(LineCollection(np.concatenate(segs), colors="0.6", linewidths=0.4))
-        cmap = plt.get_cmap("tab10")
-        for i, (name, e) in enumerate(sorted(self.edges.items())):
-            idx = [0, 2, 1] if e.shape[1] == 3 else [0, 1]
-            ax.add_collection(LineCollection(self.mesh.nodes[e[:, idx]], colors=[cmap(i % 10)], linewidths=2.0,
-                                             label=name))
-        size = float(np.ptp(self.mesh.nodes, axis=0).max())
-        if show_loads:
-            for ld in self.loads:
-                if isinstance(ld, (Traction, Pressure)):
-                    e = self.edges[ld.edge] if isinstance(ld.edge, str) else np.asarray(ld.edge)
-                    xs, ts = [], []
-                    for g in edge_quadrature(self.mesh, e, npoints=1):
-                        x = g["x"][:, 0]
-                        c = x[:, 0 if ld.along in (0, "x", "r") else 1] - ld.origin
-                        if isinstance(ld, Traction):
-                            t = np.asarray(ld.value, float)[None, :] + (
-                                0 if ld.gradient is None else c[:, None] * np.asarray(ld.gradient, float))
-                        else:
-                            t = -(ld.value + ld.gradient * c)[:, None] * g["normal"][:, 0]
-                        xs.append(x); ts.append(t)
-                    x, t = np.concatenate(xs), np.concatenate(ts)
-                    sc = 0.08 * size / max(np.abs(t).max(), 1e-300)
-                    ax.quiver(x[:, 0], x[:, 1], t[:, 0] * sc, t[:, 1] * sc, angles="xy", scale_units="xy", scale=1,
-                              color="tab:red", width=0.003)
-                elif isinstance(ld, PointLoad):
-                    node = self.points[ld.where] if isinstance(ld.where, str) else ld.where
-                    p = self.mesh.nodes[node]
-                    F = np.asarray(ld.force, float)
-                    F = 0.1 * size * F / max(np.linalg.norm(F), 1e-300)
-                    ax.annotate("", p + F, p, arrowprops=dict(arrowstyle="<-", color="tab:red"))
-        if show_supports:
-            for s in self.supports:
-                w = s.where
-                if isinstance(w, str):
-                    nodes = np.unique(self.edges[w]) if w in self.edges else np.atleast_1d(self.points[w])
-                else:
-                    nodes = np.atleast_1d(w)
-                p = self.mesh.nodes[nodes]
-                marker = {Fixed: "s", Roller: "o", Displacement: "^"}.get(type(s), "x")
-                ax.plot(p[:, 0], p[:, 1], linestyle="none", marker=marker, markersize=3, color="tab:blue")
-        ax.set_aspect("equal")
-        ax.autoscale_view()
-        ax.set_title(f"{self.kind} ({self.mesh.ncells} {self.mesh.blocks[0].name} cells, {self.analysis})")
-        if legend:
-            ax.legend(loc="best", fontsize="small")
-        return ax
+        colour, load arrows and support markers.  Returns the axes
+        (drawn by :func:`toolkit.report.model_plot.plot_model`)."""
+        from toolkit.report.model_plot import plot_model
+        return plot_model(self, ax, show_loads=show_loads, show_supports=show_supports, legend=legend)

@@ -17,9 +17,14 @@ Nominal stress on the small section (Peterson's convention, Pilkey & Pilkey,
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
-from toolkit.fem.solver import Displacement, Fixed, Material, Roller, Traction
+from toolkit.errors import InputError
+from toolkit.fem.loads import Traction
+from toolkit.fem.material import Material
+from toolkit.fem.supports import Displacement, Fixed, Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line
 
 __all__ = ["shoulder_fillet"]
@@ -52,37 +57,87 @@ def shoulder_fillet(shape="flat", large_width=2.0, small_width=1.0, fillet_radiu
     ``small_end`` (loaded), ``axis`` (half models); points ``fillet_start``
     (on the shoulder side), ``fillet_end`` (tangent point on the small part).
     """
+    dm = _dimensions(shape, large_width, small_width, fillet_radius, large_length, small_length, thickness,
+                     element_size, etype, load, growth)
+    D, d, r, Ll, Ls, hstep = dm.D, dm.d, dm.r, dm.Ll, dm.Ls, dm.hstep
+    yc = d / 2 + r                                   # fillet centre height; top of the fillet zone
+    full = shape == "flat" and load == "bending"      # bending: the full depth, mirrored about the axis
+    mesh, edges, sets = assemble(_blocks(dm, growth, aspect), etype,
+                                 mirror=("y", 0.0, {"axis": None}) if full else None, swap_xy=shape == "shaft")
+
+    def node_at(a_, b_):
+        p = np.array([b_, a_]) if shape == "shaft" else np.array([a_, b_])
+        return int(np.argmin(np.linalg.norm(mesh.nodes - p, axis=1)))
+
+    points = {"fillet_start": node_at(0.0, yc), "fillet_end": node_at(r, d / 2),
+              "large_end_centre": node_at(-Ll, 0.0)}
+    if full:
+        points["large_end_top"] = node_at(-Ll, D / 2)         # held in x with the centre pinned (see _loading)
+    s = float(nominal_stress)
+    geometry = {"shape": shape, "large_width": D, "small_width": d, "fillet_radius": r, "large_length": Ll,
+                "small_length": Ls, "element_size": dm.h, "D_over_d": D / d, "r_over_d": r / d,
+                "h_over_r": hstep / r, "etype": etype, "load": load}
+    loads, supports, nominal, analysis, thick, notes = _loading(shape, load, s, dm, thickness)
+    return Model(kind=f"shoulder_fillet ({shape}, {load})", mesh=mesh, edges=edges, points=points, analysis=analysis,
+                 thickness=thick, loads=loads, supports=supports, material=material, geometry=geometry,
+                 nominal=nominal, notes=notes)
+
+
+@dataclass(frozen=True)
+class _Dimensions:
+    """Checked dimensions of the stepped bar or shaft."""
+
+    D: float                # large width (diameter)
+    d: float                # small width (diameter)
+    r: float                # fillet radius
+    hstep: float            # shoulder height (D - d)/2
+    Ll: float               # length of the large part
+    Ls: float               # length of the small part
+    h: float                # element size along the fillet
+
+
+def _dimensions(shape, large_width, small_width, fillet_radius, large_length, small_length, thickness, element_size,
+                etype, load, growth) -> _Dimensions:
+    """Check the parameters of :func:`shoulder_fillet` and derive the dimensions."""
     if shape not in ("flat", "shaft"):
-        raise ValueError(f"shoulder_fillet: shape must be 'flat' or 'shaft', got {shape!r}")
+        raise InputError(f"shoulder_fillet: shape must be 'flat' or 'shaft', got {shape!r}")
     if load not in ("tension", "bending"):
-        raise ValueError(f"shoulder_fillet: load must be 'tension' or 'bending', got {load!r}")
+        raise InputError(f"shoulder_fillet: load must be 'tension' or 'bending', got {load!r}")
     if shape == "shaft" and load == "bending":
-        raise ValueError("shoulder_fillet: bending of a shaft is not axisymmetric; use load='tension' or shape='flat'")
+        raise InputError("shoulder_fillet: bending of a shaft is not axisymmetric; use load='tension' or shape='flat'")
     D, d, r = float(large_width), float(small_width), float(fillet_radius)
     for name, v in (("large_width", D), ("small_width", d), ("fillet_radius", r), ("thickness", thickness)):
         if not (np.isfinite(v) and v > 0):
-            raise ValueError(f"shoulder_fillet: {name} must be positive, got {v}")
+            raise InputError(f"shoulder_fillet: {name} must be positive, got {v}")
     if d >= D:
-        raise ValueError(f"shoulder_fillet: small_width must be smaller than large_width = {D:g} (got {d:g})")
+        raise InputError(f"shoulder_fillet: small_width must be smaller than large_width = {D:g} (got {d:g})")
     hstep = (D - d) / 2
     if r > hstep * (1 + 1e-12):
-        raise ValueError(f"shoulder_fillet: fillet_radius must be <= (large_width - small_width)/2 = {hstep:g} "
+        raise InputError(f"shoulder_fillet: fillet_radius must be <= (large_width - small_width)/2 = {hstep:g} "
                          f"(got {r:g})")
     r = min(r, hstep)
     Ll = 1.5 * D if large_length is None else float(large_length)
     Ls = r + 2 * d if small_length is None else float(small_length)
     if not (np.isfinite(Ll) and Ll > 0):
-        raise ValueError(f"shoulder_fillet: large_length must be positive, got {Ll}")
+        raise InputError(f"shoulder_fillet: large_length must be positive, got {Ll}")
     if not (np.isfinite(Ls) and Ls > r):
-        raise ValueError(f"shoulder_fillet: small_length must exceed fillet_radius = {r:g} (got {Ls:g})")
+        raise InputError(f"shoulder_fillet: small_length must exceed fillet_radius = {r:g} (got {Ls:g})")
     if etype not in QUAD_TYPES:
-        raise ValueError(f"shoulder_fillet: etype must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"shoulder_fillet: etype must be one of {QUAD_TYPES}, got {etype!r}")
     h = r / 6 if element_size is None else float(element_size)
     if not (0 < h <= r):
-        raise ValueError(f"shoulder_fillet: element_size must lie in (0, fillet_radius = {r:g}], got {h:g}")
+        raise InputError(f"shoulder_fillet: element_size must lie in (0, fillet_radius = {r:g}], got {h:g}")
     if not (1.0 < growth <= 2.0):
-        raise ValueError(f"shoulder_fillet: growth must lie in (1, 2], got {growth}")
+        raise InputError(f"shoulder_fillet: growth must lie in (1, 2], got {growth}")
+    return _Dimensions(D, d, r, hstep, Ll, Ls, h)
 
+
+def _blocks(dm: _Dimensions, growth, aspect) -> list:
+    """Mapped blocks of the half layout (a, b >= 0): the fillet block from the
+    axis up to the arc, the small part, the large part up to the fillet
+    centre height and, when the fillet does not reach the large surface, the
+    large part above it (its right side is the shoulder face)."""
+    D, d, r, hstep, Ll, Ls, h = dm.D, dm.d, dm.r, dm.hstep, dm.Ll, dm.Ls, dm.h
     yc = d / 2 + r                                   # fillet centre height; top of the fillet zone
     n_arc = max(2, int(np.ceil(np.pi / 2 * r / h)))
     hs = r / n_arc                                   # element width at the bottom of the fillet block
@@ -110,20 +165,14 @@ def shoulder_fillet(shape="flat", large_width=2.0, small_width=1.0, fillet_radiu
         t_u = graded(D / 2 - yc, harc, max(cap, harc), growth)
         blocks.append(Block(line((-Ll, yc), (0, yc)), line((0, yc), (0, D / 2)), top, line((-Ll, yc), (-Ll, D / 2)),
                             s_w, t_u, names={"right": "shoulder", "top": "large_surface", "left": "large_end"}))
-    full = shape == "flat" and load == "bending"
-    mesh, edges, sets = assemble(blocks, etype, mirror=("y", 0.0, {"axis": None}) if full else None,
-                                 swap_xy=shape == "shaft")
+    return blocks
 
-    def node_at(a_, b_):
-        p = np.array([b_, a_]) if shape == "shaft" else np.array([a_, b_])
-        return int(np.argmin(np.linalg.norm(mesh.nodes - p, axis=1)))
 
-    points = {"fillet_start": node_at(0.0, yc), "fillet_end": node_at(r, d / 2),
-              "large_end_centre": node_at(-Ll, 0.0)}
-    s = float(nominal_stress)
-    geometry = {"shape": shape, "large_width": D, "small_width": d, "fillet_radius": r, "large_length": Ll,
-                "small_length": Ls, "element_size": h, "D_over_d": D / d, "r_over_d": r / d, "h_over_r": hstep / r,
-                "etype": etype, "load": load}
+def _loading(shape, load, s, dm: _Dimensions, thickness):
+    """Loads, supports, nominal values, analysis, thickness and notes of the
+    load case (see the module notes for the nominal stresses).  Bending
+    supports act on the points ``large_end_centre`` and ``large_end_top``."""
+    D, d = dm.D, dm.d
     if shape == "shaft":
         loads = [Traction("small_end", (0.0, s))]
         supports = [Roller("axis"), Roller("large_end")]
@@ -142,11 +191,8 @@ def shoulder_fillet(shape="flat", large_width=2.0, small_width=1.0, fillet_radiu
         M = s * thickness * d ** 2 / 6
         loads = [Traction("small_end", (0.0, 0.0), gradient=(s / (d / 2), 0.0), along="y"),
                  Traction("large_end", (0.0, 0.0), gradient=(-M / (thickness * D ** 3 / 12), 0.0), along="y")]
-        points["large_end_top"] = node_at(-Ll, D / 2)
         supports = [Fixed("large_end_centre"), Displacement("large_end_top", ux=0.0)]
         nominal = {"nominal": s, "moment": M}
         analysis, thick = "plane_stress", float(thickness)
         notes = "full depth; Kt = peak sxx on the fillet / nominal; nominal = 6M/(t d^2)"
-    return Model(kind=f"shoulder_fillet ({shape}, {load})", mesh=mesh, edges=edges, points=points, analysis=analysis,
-                 thickness=thick, loads=loads, supports=supports, material=material, geometry=geometry,
-                 nominal=nominal, notes=notes)
+    return loads, supports, nominal, analysis, thick, notes

@@ -15,7 +15,10 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.fem.solver import Material, Roller, Traction
+from toolkit.errors import InputError
+from toolkit.fem.loads import Traction
+from toolkit.fem.material import Material
+from toolkit.fem.supports import Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line, uniform
 
 __all__ = ["plate_with_hole"]
@@ -46,19 +49,19 @@ def plate_with_hole(width, length, hole_diameter, thickness=1.0, element_size=No
     W, L, d, t = (float(v) for v in (width, length, hole_diameter, thickness))
     for name, v in (("width", W), ("length", L), ("hole_diameter", d), ("thickness", t)):
         if not (np.isfinite(v) and v > 0):
-            raise ValueError(f"plate_with_hole: {name} must be positive, got {v}")
+            raise InputError(f"plate_with_hole: {name} must be positive, got {v}")
     if d >= W:
-        raise ValueError(f"plate_with_hole: hole_diameter must be smaller than width = {W:g} (got {d:g})")
+        raise InputError(f"plate_with_hole: hole_diameter must be smaller than width = {W:g} (got {d:g})")
     if d >= L:
-        raise ValueError(f"plate_with_hole: hole_diameter must be smaller than length = {L:g} (got {d:g})")
+        raise InputError(f"plate_with_hole: hole_diameter must be smaller than length = {L:g} (got {d:g})")
     if etype not in QUAD_TYPES:
-        raise ValueError(f"plate_with_hole: etype must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"plate_with_hole: etype must be one of {QUAD_TYPES}, got {etype!r}")
     a = d / 2
     h = a / 5 if element_size is None else float(element_size)
     if not (0 < h <= a):
-        raise ValueError(f"plate_with_hole: element_size must lie in (0, hole_diameter/2 = {a:g}], got {h:g}")
+        raise InputError(f"plate_with_hole: element_size must lie in (0, hole_diameter/2 = {a:g}], got {h:g}")
     if not (1.0 < growth <= 2.0):
-        raise ValueError(f"plate_with_hole: growth must lie in (1, 2], got {growth}")
+        raise InputError(f"plate_with_hole: growth must lie in (1, 2], got {growth}")
     c = min(W, L) / 2
     n_th = max(2, int(np.ceil(np.pi / 4 * a / h)))
     H = c / n_th                                   # element size along the outer square

@@ -21,9 +21,14 @@ Loads on the plate end ``x = L/2``: membrane ``σ_m`` and bending ``σ_b``
 """
 from __future__ import annotations
 
+from dataclasses import dataclass
+
 import numpy as np
 
-from toolkit.fem.solver import Displacement, Material, Roller, Traction
+from toolkit.errors import InputError
+from toolkit.fem.loads import Traction
+from toolkit.fem.material import Material
+from toolkit.fem.supports import Displacement, Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line
 
 __all__ = ["weld_toe"]
@@ -65,39 +70,79 @@ def weld_toe(plate_thickness=10.0, attachment_thickness=10.0, weld_leg=8.0, side
     loaded side); points ``toe`` (sharp toe, or where the rounding meets the
     plate surface), ``centre`` (x = 0, y = 0).
     """
+    d = _dimensions(plate_thickness, attachment_thickness, weld_leg, sides, flank_angle, toe_radius, element_size,
+                    plate_length, attachment_height, etype, growth)
+    lay = _layout(d, sides, growth)
+    mesh, edges, sets = assemble(lay.blocks, etype, mirror=lay.mirror, internal=("toe_section",))
+    edges["toe_section"] = cell_edges_on(mesh, sets["toe_section"], lambda c: c[:, 0] > lay.xw)
+    points = _points(mesh, d, lay)
+    sm, sb = float(membrane_stress), float(bending_stress)
+    loads = [Traction("end", (sm, 0.0), gradient=(sb / lay.ys, 0.0) if sb != 0.0 else None, along="y")]
+    supports = [Roller("symmetry"), Displacement("centre", uy=0.0)]
+    geometry = {"plate_thickness": d.t, "attachment_thickness": d.T, "weld_leg": d.leg, "vertical_leg": d.v,
+                "flank_angle": d.flank_deg, "toe_radius": d.rho, "sides": sides, "plate_length": 2 * d.Lh,
+                "attachment_height": d.H, "element_size": d.h, "toe_x": d.x_toe, "section_x": lay.xw,
+                "surface_y": lay.ys, "etype": etype}
+    return Model(kind=f"weld_toe ({'T joint' if sides == 1 else 'cruciform'})", mesh=mesh, edges=edges,
+                 points=points, analysis="plane_strain", thickness=1.0, loads=loads, supports=supports,
+                 material=material, geometry=geometry, nominal={"membrane": sm, "bending": sb},
+                 notes="half model about the attachment centre line; plane strain per unit width")
+
+
+@dataclass(frozen=True)
+class _Dimensions:
+    """Checked dimensions of the joint."""
+
+    t: float                # plate thickness
+    T: float                # attachment thickness
+    leg: float              # weld leg along the plate
+    flank_deg: float        # flank angle, degrees
+    th: float               # flank angle, radians
+    v: float                # vertical leg, leg * tan(th)
+    x_toe: float            # toe position, T/2 + leg
+    Lh: float               # half plate length (the model's extent in x)
+    H: float                # attachment height above the plate surface
+    rho: float | None       # toe radius (None: sharp toe)
+    e: float                # tangent length of the rounding from the toe (0 for a sharp toe)
+    h: float                # element size at the toe
+
+
+def _dimensions(plate_thickness, attachment_thickness, weld_leg, sides, flank_angle, toe_radius, element_size,
+                plate_length, attachment_height, etype, growth) -> _Dimensions:
+    """Check the parameters of :func:`weld_toe` and derive the dimensions."""
     t, T, leg = float(plate_thickness), float(attachment_thickness), float(weld_leg)
     for name, v in (("plate_thickness", t), ("attachment_thickness", T), ("weld_leg", leg)):
         if not (np.isfinite(v) and v > 0):
-            raise ValueError(f"weld_toe: {name} must be positive, got {v}")
+            raise InputError(f"weld_toe: {name} must be positive, got {v}")
     if sides not in (1, 2):
-        raise ValueError(f"weld_toe: sides must be 1 (T joint) or 2 (cruciform), got {sides!r}")
+        raise InputError(f"weld_toe: sides must be 1 (T joint) or 2 (cruciform), got {sides!r}")
     th_deg = float(flank_angle)
     if not (10.0 <= th_deg <= 80.0):
-        raise ValueError(f"weld_toe: flank_angle must lie in [10, 80] degrees, got {th_deg:g}")
+        raise InputError(f"weld_toe: flank_angle must lie in [10, 80] degrees, got {th_deg:g}")
     if etype not in QUAD_TYPES:
-        raise ValueError(f"weld_toe: etype must be one of {QUAD_TYPES}, got {etype!r}")
+        raise InputError(f"weld_toe: etype must be one of {QUAD_TYPES}, got {etype!r}")
     th = np.radians(th_deg)
     a = T / 2
     v = leg * np.tan(th)
     x_toe = a + leg
     Lh = (a + leg + 4 * t) if plate_length is None else float(plate_length) / 2
     if not (np.isfinite(Lh) and Lh >= x_toe + t):
-        raise ValueError(f"weld_toe: the weld leg leaves too little plate: plate_length must be at least "
+        raise InputError(f"weld_toe: the weld leg leaves too little plate: plate_length must be at least "
                          f"2 (attachment_thickness/2 + weld_leg + plate_thickness) = {2 * (x_toe + t):g} "
                          f"(got {2 * Lh:g})")
     H = max(t, 2 * v) if attachment_height is None else float(attachment_height)
     if not (np.isfinite(H) and H > v * (1 + 1e-9)):
-        raise ValueError(f"weld_toe: attachment_height must exceed the weld's vertical leg "
+        raise InputError(f"weld_toe: attachment_height must exceed the weld's vertical leg "
                          f"weld_leg*tan(flank_angle) = {v:g} (got {H:g})")
     rho = None if toe_radius is None else float(toe_radius)
     face = leg / np.cos(th)                              # weld face length
     if rho is not None:
         if not (np.isfinite(rho) and rho > 0):
-            raise ValueError(f"weld_toe: toe_radius must be positive (or None for a sharp toe), got {rho}")
+            raise InputError(f"weld_toe: toe_radius must be positive (or None for a sharp toe), got {rho}")
         e = rho / np.tan((np.pi - th) / 2)               # tangent length from the toe
         lim = min(0.5 * face, 0.5 * (Lh - x_toe))
         if e > lim:
-            raise ValueError(f"weld_toe: toe_radius too large: the rounding must end within half the weld face "
+            raise InputError(f"weld_toe: toe_radius too large: the rounding must end within half the weld face "
                              f"and half the plate ahead of the toe, i.e. toe_radius <= "
                              f"{lim * np.tan((np.pi - th) / 2):g} (got {rho:g})")
     else:
@@ -105,33 +150,61 @@ def weld_toe(plate_thickness=10.0, attachment_thickness=10.0, weld_leg=8.0, side
     h = (t / 10 if rho is None else rho / 4) if element_size is None else float(element_size)
     hmax = min(t / 2, leg / 2) if rho is None else rho
     if not (0 < h <= hmax):
-        raise ValueError(f"weld_toe: element_size must lie in (0, {hmax:g}] "
+        raise InputError(f"weld_toe: element_size must lie in (0, {hmax:g}] "
                          f"({'min(plate_thickness, weld_leg)/2' if rho is None else 'toe_radius'}), got {h:g}")
     if not (1.0 < growth <= 2.0):
-        raise ValueError(f"weld_toe: growth must lie in (1, 2], got {growth}")
+        raise InputError(f"weld_toe: growth must lie in (1, 2], got {growth}")
+    return _Dimensions(t, T, leg, th_deg, th, v, x_toe, Lh, H, rho, e, h)
 
+
+@dataclass(frozen=True, eq=False)
+class _Layout:
+    """The blocks of the half model and the places the naming step needs."""
+
+    blocks: list
+    mirror: tuple | None
+    ys: float               # plate upper surface, t/2
+    xw: float               # x of the cut through the plate under the weld-side end of the rounding
+    Qw: np.ndarray          # where the rounding meets the weld face (the toe when sharp)
+    Qp: np.ndarray          # where the rounding meets the plate surface (the toe when sharp)
+
+
+def _plate_surface(d: _Dimensions, Qp, Qw, xw, ys, growth):
+    """The element distribution along the plate ahead of the weld and the
+    curve of its upper surface (the toe rounding, when there is one, then the
+    straight surface to the end)."""
+    far = max(d.h, d.t / 2)
+    if d.rho is None:
+        s_p2 = graded(d.Lh - xw, d.h, far, growth)
+        top = line(Qw, (d.Lh, ys))
+    else:
+        La = d.rho * d.th
+        n_arc = max(2, int(np.ceil(La / d.h)))
+        rest = graded(d.Lh - Qp[0], La / n_arc, far, growth)
+        Ltot = La + (d.Lh - Qp[0])
+        s_p2 = np.concatenate([np.linspace(0.0, La, n_arc + 1), La + rest[1:] * (d.Lh - Qp[0])]) / Ltot
+        centre = np.array([Qp[0], ys + d.rho])
+        top = join(arc(centre, d.rho, -np.pi / 2 - d.th, -np.pi / 2), line(Qp, (d.Lh, ys)))
+    return s_p2, top
+
+
+def _layout(d: _Dimensions, sides, growth) -> _Layout:
+    """Mapped blocks: plate under the weld, plate ahead of it, weld,
+    attachment; the plate's lower half as blocks (T joint) or the mirror
+    image of the whole about y = 0 (cruciform)."""
+    t, Lh, v, H, h = d.t, d.Lh, d.v, d.H, d.h
+    a = d.T / 2
     ys = t / 2
-    toe = np.array([x_toe, ys])
-    uw = np.array([-np.cos(th), np.sin(th)])
-    Qw = toe + e * uw
-    Qp = toe + np.array([e, 0.0])
+    toe = np.array([d.x_toe, ys])
+    uw = np.array([-np.cos(d.th), np.sin(d.th)])
+    Qw = toe + d.e * uw
+    Qp = toe + np.array([d.e, 0.0])
     xw = Qw[0]
     cap = max(h, t / 8)
     # distributions
     s_p1 = graded(xw, h, max(h, t / 4), growth, at="end")          # under the weld, fine at the toe
     t_pu = graded(ys, h, cap, growth, at="end")                     # plate upper half, fine at the surface
-    far = max(h, t / 2)
-    if rho is None:
-        s_p2 = graded(Lh - xw, h, far, growth)
-        top = line(Qw, (Lh, ys))
-    else:
-        La = rho * th
-        n_arc = max(2, int(np.ceil(La / h)))
-        rest = graded(Lh - Qp[0], La / n_arc, far, growth)
-        Ltot = La + (Lh - Qp[0])
-        s_p2 = np.concatenate([np.linspace(0.0, La, n_arc + 1), La + rest[1:] * (Lh - Qp[0])]) / Ltot
-        centre = np.array([Qp[0], ys + rho])
-        top = join(arc(centre, rho, -np.pi / 2 - th, -np.pi / 2), line(Qp, (Lh, ys)))
+    s_p2, top = _plate_surface(d, Qp, Qw, xw, ys, growth)
     t_w = graded(v - (Qw[1] - ys), h, max(h, v / 4), growth)
     first_a = (t_w[-1] - t_w[-2]) * v
     t_a = graded(H - v, first_a, max(first_a, H / 4), growth)
@@ -159,23 +232,16 @@ def weld_toe(plate_thickness=10.0, attachment_thickness=10.0, weld_leg=8.0, side
     else:
         mirror = ("y", 0.0, {n: n + "_bottom" for n in ("plate_surface", "weld_face", "attachment_face",
                                                           "attachment_top")})
-    mesh, edges, sets = assemble(blocks, etype, mirror=mirror, internal=("toe_section",))
-    edges["toe_section"] = cell_edges_on(mesh, sets["toe_section"], lambda c: c[:, 0] > xw)
+    return _Layout(blocks, mirror, ys, xw, Qw, Qp)
 
+
+def _points(mesh, d: _Dimensions, lay: _Layout) -> dict:
+    """Named points: the toe, the centre (0, 0) and, for a rounded toe, where
+    the rounding starts on the weld face."""
     def node_at(p):
         return int(np.argmin(np.linalg.norm(mesh.nodes - np.asarray(p, float), axis=1)))
 
-    points = {"toe": node_at(Qp), "centre": node_at((0.0, 0.0))}
-    if rho is not None:
-        points["rounding_start"] = node_at(Qw)
-    sm, sb = float(membrane_stress), float(bending_stress)
-    loads = [Traction("end", (sm, 0.0), gradient=(sb / ys, 0.0) if sb != 0.0 else None, along="y")]
-    supports = [Roller("symmetry"), Displacement("centre", uy=0.0)]
-    geometry = {"plate_thickness": t, "attachment_thickness": T, "weld_leg": leg, "vertical_leg": v,
-                "flank_angle": th_deg, "toe_radius": rho, "sides": sides, "plate_length": 2 * Lh,
-                "attachment_height": H, "element_size": h, "toe_x": x_toe, "section_x": xw,
-                "surface_y": ys, "etype": etype}
-    return Model(kind=f"weld_toe ({'T joint' if sides == 1 else 'cruciform'})", mesh=mesh, edges=edges,
-                 points=points, analysis="plane_strain", thickness=1.0, loads=loads, supports=supports,
-                 material=material, geometry=geometry, nominal={"membrane": sm, "bending": sb},
-                 notes="half model about the attachment centre line; plane strain per unit width")
+    points = {"toe": node_at(lay.Qp), "centre": node_at((0.0, 0.0))}
+    if d.rho is not None:
+        points["rounding_start"] = node_at(lay.Qw)
+    return points

@@ -1,0 +1,203 @@
+"""The summary record a workbook keeps of its results, the inputs hash, and
+reading the record back from an executed notebook.
+
+A workbook records its results in its own cells::
+
+    from toolkit.workbook import Summary
+    report = Summary(parameters=dict(width=width, holes=holes, detail=detail))
+    report.value("peak stress", s_max, "MPa")
+    report.check(fatigue_check(...))          # CheckResult or a plain dict
+    report.save()
+
+``save()`` displays the summary as a table (``text/plain`` and ``text/html``,
+formatted to 6 significant digits) and embeds the exact data in that output's
+*metadata* under the key ``"stresspath"``; ``toolkit.workbook.render``
+extracts it from the executed notebook (:func:`read_summary`) and writes
+``summary.json``.  This needs no file and no agreed working directory, it
+survives in the stored ``.ipynb``, and strict ``pytest --nbval`` never
+compares output metadata, so full-precision floats cannot break it while the
+formatted table is still compared.  A workbook calls ``save()`` exactly once.
+The record holds finite numbers only: a NaN or an infinity is refused when
+recorded.  :class:`Summary` needs only IPython, present in every kernel.
+"""
+from __future__ import annotations
+
+import copy
+import hashlib
+import html
+import json
+import math
+import numbers
+from pathlib import Path
+
+from toolkit.errors import InputError, WorkbookError
+from toolkit.report.format import first_non_finite, fmt, json_text, plain
+
+__all__ = ["Summary", "inputs_hash", "read_summary", "SUMMARY_METADATA_KEY", "SUMMARY_FORMAT"]
+
+SUMMARY_METADATA_KEY = "stresspath"
+SUMMARY_FORMAT = 1
+_CHECK_KEYS = ("name", "value", "limit", "utilization", "status")
+
+
+def _finite_plain(v, where):
+    """:func:`plain` of ``v``, refusing NaN and infinity (the summary holds finite numbers)."""
+    bad = first_non_finite(v)
+    if bad is not None:
+        raise InputError(f"{where}: value {bad} is not finite")
+    return plain(v, where)
+
+
+def inputs_hash(params) -> str:
+    """First 12 hex digits of the SHA-256 of the canonical JSON of ``params``.
+
+    Canonical JSON: keys sorted, separators ``(",", ":")``, UTF-8, no NaN.
+    The same parameter values give the same hash on any machine, so a
+    report's footer identifies the inputs it was made from.
+    """
+    text = json.dumps(_finite_plain(dict(params), "inputs_hash"), sort_keys=True, separators=(",", ":"),
+                      ensure_ascii=False, allow_nan=False)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:12]
+
+
+class Summary:
+    """The results a workbook hands to ``toolkit.workbook.render`` for ``summary.json``.
+
+    Parameters
+    ----------
+    parameters : dict, optional
+        The workbook's parameter values as the cells see them.  Render checks
+        they equal the run's parameters (a typo or a parameter overwritten in a
+        later cell would otherwise go unseen).
+    """
+
+    def __init__(self, parameters=None):
+        self.parameters = None if parameters is None else _finite_plain(dict(parameters), "Summary parameters")
+        self.values = {}
+        self.checks = []
+
+    def value(self, name, value, unit, note=None):
+        """Record one result: a finite number, a bool or a string, with its unit ("-" if none)."""
+        name = str(name)
+        if name in self.values:
+            raise InputError(f"summary value {name!r} recorded twice (re-run from the Summary() cell)")
+        if not isinstance(unit, str):
+            raise InputError(f"summary value {name!r}: unit must be a string such as 'MPa' or '-'")
+        v = _finite_plain(value, f"summary value {name!r}")
+        if isinstance(v, (list, dict)) or v is None:
+            raise InputError(f"summary value {name!r}: record a number, bool or string, not {type(value).__name__}")
+        entry = {"value": v, "unit": unit}
+        if note is not None:
+            entry["note"] = str(note)
+        self.values[name] = entry
+
+    def check(self, result):
+        """Record one check: an object with ``to_dict()`` (e.g. a CheckResult) or a dict
+        with at least name, value, limit, utilization and status ("PASS"/"FAIL")."""
+        d = result.to_dict() if hasattr(result, "to_dict") else result
+        if not isinstance(d, dict):
+            raise InputError(f"summary check: expected a dict or an object with to_dict(), got {type(result).__name__}")
+        missing = [k for k in _CHECK_KEYS if k not in d]
+        name = d.get("name", "?")
+        if missing:
+            raise InputError(f"summary check {name!r}: missing {', '.join(missing)}")
+        entry = {"name": str(d["name"])}
+        for k in ("value", "limit", "utilization"):
+            x = d[k]
+            if isinstance(x, bool) or not isinstance(x, numbers.Real) or not math.isfinite(float(x)):
+                raise InputError(f"summary check {name!r}: {k} must be a finite number, got {x!r}")
+            entry[k] = float(x)
+        if d["status"] not in ("PASS", "FAIL"):
+            raise InputError(f"summary check {name!r}: status must be 'PASS' or 'FAIL', got {d['status']!r}")
+        entry["status"] = d["status"]
+        if d.get("unit") is not None:
+            entry["unit"] = str(d["unit"])
+        if any(c["name"] == entry["name"] for c in self.checks):
+            raise InputError(f"summary check {entry['name']!r} recorded twice (re-run from the Summary() cell)")
+        self.checks.append(entry)
+
+    def to_dict(self) -> dict:
+        d = {"values": copy.deepcopy(self.values), "checks": copy.deepcopy(self.checks)}
+        if self.parameters is not None:
+            d["parameters"] = copy.deepcopy(self.parameters)
+        return d
+
+    def _rows(self):
+        rows = []
+        for name, e in self.values.items():
+            unit = "" if e["unit"] in ("", "-") else f" {e['unit']}"
+            rows.append(("value", name, f"{fmt(e['value'], 6)}{unit}", e.get("note", "")))
+        for c in self.checks:
+            unit = "" if c.get("unit", "-") in ("", "-") else f" {c['unit']}"
+            rows.append(("check", c["name"], f"{fmt(c['value'], 6)}{unit} / {fmt(c['limit'], 6)}{unit}",
+                         f"utilization {c['utilization']:.3f}  {c['status']}"))
+        return rows
+
+    def __repr__(self):
+        rows = self._rows()
+        if not rows:
+            return "Summary: (empty)"
+        w = max(len(r[1]) for r in rows)
+        v = max(len(r[2]) for r in rows)
+        return "\n".join(["Summary"] + [f"  {k:<5}  {n:<{w}}  {x:<{v}}  {t}".rstrip() for k, n, x, t in rows])
+
+    def _repr_html_(self):
+        body = "".join(f"<tr><td>{html.escape(k)}</td><td>{html.escape(n)}</td><td>{html.escape(x)}</td>"
+                       f"<td>{html.escape(t)}</td></tr>" for k, n, x, t in self._rows())
+        return ("<table><caption style='text-align:left'><b>Summary</b></caption>"
+                "<tr><th>kind</th><th>name</th><th>value / limit</th><th>note</th></tr>" + body + "</table>")
+
+    def save(self, path=None):
+        """Display the summary and embed its data for ``render`` (call once per workbook).
+
+        With ``path``, also write the data as JSON there.  Returns None (so a
+        trailing ``report.save()`` adds no extra output).
+        """
+        data = self.to_dict()
+        if path is not None:
+            Path(path).write_text(json_text(data), encoding="utf-8")
+        try:
+            from IPython import get_ipython
+        except ImportError:  # plain Python, no IPython installed
+            get_ipython = lambda: None  # noqa: E731
+        if get_ipython() is None:
+            print(repr(self))
+            return None
+        from IPython.display import display
+
+        display({"text/plain": repr(self), "text/html": self._repr_html_()}, raw=True,
+                metadata={SUMMARY_METADATA_KEY: {"format": SUMMARY_FORMAT, "summary": data}})
+        return None
+
+
+def read_summary(nb):
+    """The data a workbook saved with :meth:`Summary.save` (a notebook node or path).
+
+    Raises :class:`WorkbookError` if there is none or more than one.
+    """
+    if isinstance(nb, (str, Path)):
+        import nbformat
+
+        try:
+            nb = nbformat.read(str(nb), as_version=4)
+        except Exception as e:  # nbformat raises several kinds (JSON, validation)
+            raise WorkbookError(f"cannot read notebook {nb}: {e}") from None
+    found = []
+    for i, cell in enumerate(nb.cells):
+        for out in cell.get("outputs", []) if cell.cell_type == "code" else []:
+            md = out.get("metadata", {}).get(SUMMARY_METADATA_KEY)
+            if isinstance(md, dict) and "summary" in md:
+                found.append((i, md))
+    if not found:
+        raise WorkbookError("the workbook saved no summary: record results with Summary() and call "
+                            "report.save() in a cell")
+    if len(found) > 1:
+        raise WorkbookError(f"the workbook saved {len(found)} summaries (cells "
+                            f"{', '.join(str(i + 1) for i, _ in found)}); call report.save() once")
+    md = found[0][1]
+    if md.get("format") != SUMMARY_FORMAT:
+        raise WorkbookError(f"summary format {md.get('format')!r} is not {SUMMARY_FORMAT}")
+    data = md["summary"]
+    if not isinstance(data.get("values"), dict) or not isinstance(data.get("checks"), list):
+        raise WorkbookError("saved summary lacks 'values' (dict) or 'checks' (list)")
+    return data

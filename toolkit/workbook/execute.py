@@ -1,0 +1,272 @@
+"""Running a workbook: :func:`render` checks the run's parameters, injects
+them, executes the notebook in a fresh kernel and writes the report files.
+
+Given a workbook and the parameter values of a run, :func:`render` checks the
+values against the parameters cell before anything executes, inserts them in
+a cell tagged ``injected-parameters`` right after it, executes the notebook in
+a fresh ``python3`` kernel of the current interpreter and writes, into the
+output folder::
+
+    <name>.ipynb    the executed notebook (deterministic: two runs with the same
+                    inputs give byte-identical files)
+    <name>.html     a self-contained report that opens with no network
+    summary.json    the results the workbook recorded with ``Summary``
+
+The final ``summary.json``::
+
+    {"workbook": name, "toolkit_version": ..., "inputs_hash": ...,
+     "parameters": {...}, "values": {"name": {"value": ..., "unit": ...}},
+     "checks": [{"name", "value", "limit", "utilization", "status"[, "unit"]}]}
+
+``parameters`` are the values the run used (defaults plus given values, in the
+parameters-cell order); ``inputs_hash`` is ``inputs_hash`` of them.  If the
+workbook passed ``parameters=`` to ``Summary``, render checks they equal the
+run's parameters, so a hash printed in the workbook's footer is the one in
+summary.json.
+
+Kernel working directory: :func:`render` runs the kernel in the output folder,
+so any file a workbook writes lands beside its report, never in
+``workbooks/``.  The workbook's own folder is passed to the kernel in
+``STRESSPATH_WORKBOOK_DIR``; :func:`workbook_dir` returns it (under ``pytest
+--nbval`` the kernel already runs in the workbook's folder, and
+:func:`workbook_dir` returns that).
+
+The notebook libraries (nbformat, nbclient, tqdm) are imported when needed.
+"""
+from __future__ import annotations
+
+import os
+import sys
+import time
+from dataclasses import dataclass
+from pathlib import Path
+
+from toolkit.errors import WorkbookError, WorkbookExecutionError
+from toolkit.report.format import json_text, plain
+from toolkit.report.summary import inputs_hash, read_summary
+from toolkit.report.tables import HEADLESS_ENV
+from toolkit.workbook.html import notebook_html
+from toolkit.workbook.notebook import (clean_notebook, clear_outputs, drop_injected, ensure_ids, inject_parameters,
+                                       parameters_cell, read_notebook, resolve_workbook, write_notebook)
+from toolkit.workbook.parameters import parse_parameters, read_parameters_file, resolve_values
+
+__all__ = ["render", "RenderResult", "workbook_dir", "WORKBOOK_DIR_ENV", "KERNELSPEC"]
+
+WORKBOOK_DIR_ENV = "STRESSPATH_WORKBOOK_DIR"
+KERNELSPEC = {"display_name": "Python 3 (ipykernel)", "language": "python", "name": "python3"}
+
+
+def workbook_dir() -> Path:
+    """Folder of the workbook being run (see the module notes on the working directory)."""
+    return Path(os.environ.get(WORKBOOK_DIR_ENV) or os.getcwd())
+
+
+def _kernel_manager_class():
+    """An async kernel manager whose ``python3`` kernel is ipykernel on this interpreter."""
+    import ipykernel.kernelspec
+    from jupyter_client import AsyncKernelManager
+    from jupyter_client.kernelspec import KernelSpecManager, NoSuchKernel
+    from traitlets import default
+
+    class _HereSpecs(KernelSpecManager):
+        def get_kernel_spec(self, kernel_name):
+            if kernel_name != "python3":
+                raise NoSuchKernel(kernel_name)
+            return self.kernel_spec_class(resource_dir=ipykernel.kernelspec.RESOURCES,
+                                          **ipykernel.kernelspec.get_kernel_dict())
+
+    class _HereKernelManager(AsyncKernelManager):
+        @default("kernel_spec_manager")
+        def _here_specs(self):
+            return _HereSpecs(parent=self)
+
+    return _HereKernelManager
+
+
+@dataclass
+class RenderResult:
+    """What :func:`render` wrote: paths, the run's parameters, the summary and the time taken."""
+
+    name: str
+    notebook: Path
+    html: Path
+    summary_path: Path
+    parameters: dict
+    summary: dict
+    seconds: float
+    cells: int = 0
+
+    def __repr__(self):
+        checks = self.summary.get("checks", [])
+        fails = sum(c["status"] == "FAIL" for c in checks)
+        return (f"RenderResult({self.name}: {self.cells} code cells in {self.seconds:.1f} s, "
+                f"{len(self.summary.get('values', {}))} values, {len(checks)} checks ({fails} FAIL); "
+                f"{self.notebook.parent})")
+
+
+@dataclass
+class _Run:
+    """One checked run: the workbook, its notebook, the parameters cell and the values."""
+
+    path: Path
+    nb: object
+    pidx: int
+    values: dict
+    overrides: dict
+    out: Path
+
+    @property
+    def name(self):
+        return self.path.stem
+
+    @property
+    def label(self):
+        return self.path.name
+
+
+def _check_run(workbook, out_dir, params, params_file) -> _Run:
+    """Step 1: read the workbook and check every given value against its
+    parameters cell (ParameterError, nothing written) and the output folder."""
+    path = resolve_workbook(workbook)
+    label = path.name
+    nb = read_notebook(path)
+    spec = nb.metadata.get("kernelspec", {}).get("name")
+    if spec not in (None, "python3"):
+        raise WorkbookError(f"{label} names kernel {spec!r}; workbooks run on 'python3'")
+    # Drop an earlier injected cell, then find the parameters cell.
+    drop_injected(nb)
+    pidx = parameters_cell(nb, label)
+    params_def = parse_parameters(nb.cells[pidx].source, label)
+    given = {}
+    if params_file is not None:
+        given.update(read_parameters_file(params_file))
+    if params:
+        given.update(params)
+    values, overrides = resolve_values(params_def, given, label)
+    out = Path(out_dir).resolve()
+    if out == path.parent:
+        raise WorkbookError(f"output folder {out} is the workbook's own folder; choose another (e.g. reports/)")
+    return _Run(path, nb, pidx, values, overrides, out)
+
+
+def _inject(run: _Run):
+    """Step 2: the run's values in a cell after the parameters cell, outputs
+    cleared, cell ids and the ``python3`` kernelspec set."""
+    nb = run.nb
+    inject_parameters(nb, run.pidx, run.overrides)
+    clear_outputs(nb)
+    ensure_ids(nb)
+    nb.metadata["kernelspec"] = dict(KERNELSPEC)
+
+
+def _execute(run: _Run, nb_path, timeout, progress) -> int:
+    """Step 3: execute the notebook in a fresh kernel working in the output
+    folder; returns the number of code cells.  If a cell fails, the cleaned
+    notebook with the traceback is written to ``nb_path`` and
+    WorkbookExecutionError is raised."""
+    from nbclient import NotebookClient
+    from nbclient.exceptions import CellExecutionError, CellTimeoutError, DeadKernelError
+    from tqdm import tqdm
+
+    nb = run.nb
+    n_code = sum(1 for c in nb.cells if c.cell_type == "code" and c.source.strip())
+    bar = tqdm(total=n_code, desc=run.name, unit="cell", disable=not progress, file=sys.stderr, leave=True)
+    current = {"index": None}
+
+    def on_start(cell, cell_index):
+        current["index"] = cell_index
+
+    def on_executed(cell, cell_index, execute_reply):  # after the reply, unlike on_cell_complete
+        bar.update(1)
+
+    client = NotebookClient(nb, kernel_name="python3", timeout=timeout, record_timing=False,
+                            kernel_manager_class=_kernel_manager_class(),
+                            # the kernel app's own start-up warnings (not cell output) stay quiet
+                            extra_arguments=["--IPKernelApp.log_level=ERROR"],
+                            resources={"metadata": {"path": str(run.out)}},
+                            on_cell_start=on_start, on_cell_executed=on_executed)
+    env = dict(os.environ)
+    env[WORKBOOK_DIR_ENV] = str(run.path.parent)
+    env[HEADLESS_ENV] = "1"          # no live widgets: see toolkit.report.headless
+    try:
+        client.execute(env=env)
+    except (CellExecutionError, CellTimeoutError, DeadKernelError) as e:
+        bar.close()
+        clean_notebook(nb)
+        write_notebook(nb, nb_path)
+        i = current["index"]
+        where = f"cell {i + 1} (id {nb.cells[i].get('id')})" if i is not None else "start-up"
+        if isinstance(e, CellExecutionError):
+            reason = f"{e.ename}: {e.evalue}"
+        elif isinstance(e, CellTimeoutError):
+            reason = f"no result within {timeout:g} s"
+        else:
+            reason = "the kernel died"
+        raise WorkbookExecutionError(f"{run.label} failed in {where}: {reason}; the executed notebook with the "
+                                     f"traceback is {nb_path}", notebook=nb_path) from None
+    bar.close()
+    clean_notebook(nb)
+    write_notebook(nb, nb_path)
+    return n_code
+
+
+def _write_report(run: _Run, html_path, sum_path) -> dict:
+    """Step 4: the summary the workbook saved, checked against the run's
+    parameters, written as ``summary.json`` beside the offline HTML report."""
+    label = run.label
+    try:
+        data = read_summary(run.nb)
+    except WorkbookError as e:
+        raise WorkbookError(f"{label}: {e}") from None
+    run_params = plain(run.values, "parameters")
+    if "parameters" in data and data["parameters"] != run_params:
+        rec = data["parameters"]
+        diff = sorted(set(rec) ^ set(run_params)) + sorted(k for k in set(rec) & set(run_params)
+                                                           if rec[k] != run_params[k])
+        raise WorkbookError(f"{label}: Summary(parameters=...) differs from the run's parameters in "
+                            f"{', '.join(diff)}; pass every parameter unchanged")
+    from toolkit import __version__
+
+    summary = {"workbook": run.name, "toolkit_version": __version__, "inputs_hash": inputs_hash(run.values),
+               "parameters": run_params, "values": data["values"], "checks": data["checks"]}
+    html_path.write_text(notebook_html(run.nb, run.name), encoding="utf-8", newline="\n")
+    sum_path.write_text(json_text(summary), encoding="utf-8", newline="\n")
+    return summary
+
+
+def render(workbook, out_dir, params=None, params_file=None, timeout=600, progress=True) -> RenderResult:
+    """Run a workbook with parameters and write ``<name>.ipynb``, ``<name>.html`` and ``summary.json``.
+
+    Parameters
+    ----------
+    workbook : str or Path
+        A name in ``workbooks/`` (``"plate_with_hole"``) or a path to an ``.ipynb``.
+    out_dir : str or Path
+        Output folder (created if needed; must not be the workbook's own folder).
+        It is also the kernel's working directory.
+    params : dict, optional
+        Parameter values for this run; they override ``params_file``.
+    params_file : str or Path, optional
+        A JSON object of parameter values.
+    timeout : float
+        Seconds allowed per cell.
+    progress : bool
+        Show a progress bar over the code cells (stderr).
+
+    Every given value is checked against the parameters cell before anything
+    runs (:class:`ParameterError`, nothing written).  If a cell fails, the
+    executed notebook with the traceback is still written, any report and
+    summary.json from an earlier run in ``out_dir`` are removed, and
+    :class:`WorkbookExecutionError` is raised.
+    """
+    t0 = time.perf_counter()
+    run = _check_run(workbook, out_dir, params, params_file)
+    _inject(run)
+    out, name = run.out, run.name
+    out.mkdir(parents=True, exist_ok=True)
+    nb_path, html_path, sum_path = out / f"{name}.ipynb", out / f"{name}.html", out / "summary.json"
+    for stale in (html_path, sum_path):
+        stale.unlink(missing_ok=True)
+    n_code = _execute(run, nb_path, timeout, progress)
+    summary = _write_report(run, html_path, sum_path)
+    return RenderResult(name, nb_path, html_path, sum_path, run.values, summary, time.perf_counter() - t0, n_code)
