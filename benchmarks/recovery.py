@@ -404,16 +404,20 @@ def run_worker(spec, timeout, mem_limit_gib):
 # Report
 # ---------------------------------------------------------------------------
 def recovery_fingerprint() -> str:
-    """Short sha256 of toolkit/recovery.py and toolkit/linalg.py as imported
-    (the code under test can change between runs; every measurement records
-    which one it ran)."""
+    """Short sha256 of the code under test as imported: the recovery layer
+    (toolkit/recovery/*.py) and the sparse assembly and block CG it runs on
+    (the code can change between runs; every measurement records which one
+    it ran)."""
     import hashlib
-    import toolkit.core.linalg
-    import toolkit.recovery.projection
+    from pathlib import Path
+    import toolkit.core.assembly
+    import toolkit.core.cg
+    import toolkit.recovery
+    files = sorted(Path(toolkit.recovery.__file__).parent.glob("*.py")) + [Path(toolkit.core.assembly.__file__),
+                                                                         Path(toolkit.core.cg.__file__)]
     h = hashlib.sha256()
-    for mod in (toolkit.recovery, toolkit.linalg):
-        with open(mod.__file__, "rb") as f:
-            h.update(f.read())
+    for path in files:
+        h.update(path.read_bytes())
     return h.hexdigest()[:12]
 
 
@@ -441,7 +445,7 @@ def machine_info():
     except ImportError:
         skv = "not installed"
     lines.append(f"versions: python {platform.python_version()}, numpy {np.__version__}, scipy {scipy.__version__}, "
-                 f"scikit-fem {skv}, stresspath {toolkit.__version__} (toolkit/recovery.py + linalg.py sha256 "
+                 f"scikit-fem {skv}, stresspath {toolkit.__version__} (recovery + assembly + CG code sha256 "
                  f"{recovery_fingerprint()})")
     lines.append(f"load    : {' '.join(f'{v:.2f}' for v in os.getloadavg())} (1, 5, 15 min averages at the start)")
     return lines
@@ -563,8 +567,8 @@ def main(argv=None):
     print_tables(rows, memory, sizes)
     codes = sorted({r["code"] for res in rows for r in res.values() if "code" in r})
     if len(codes) > 1:
-        print(f"\nWARNING: toolkit/recovery.py or linalg.py changed during the run (sha256 {', '.join(codes)}); "
-              "rows are not all from the same code")
+        print(f"\nWARNING: toolkit/recovery/, core/assembly.py or core/cg.py changed during the run "
+              f"(sha256 {', '.join(codes)}); rows are not all from the same code")
     print(f"\ntotal wall time {time.perf_counter() - t_start:.0f} s; load average at the end "
           f"{' '.join(f'{v:.2f}' for v in os.getloadavg())} (other processes on this machine skew the times)")
     return 0

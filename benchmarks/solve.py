@@ -71,7 +71,7 @@ def loop_stiffness(mesh, block, rule, analysis, thickness, material):
 
 
 def vector_stiffness(mesh, block, rule, analysis, thickness, material):
-    from toolkit.core.linalg import assemble_csr, default_threads
+    from toolkit.core.assembly import assemble_csr, default_threads
     Ke = element_stiffness(mesh, block, rule, analysis, thickness, {0: material})
     m, k = block.cells.shape
     d = np.empty((m, 2 * k), dtype=np.int32)

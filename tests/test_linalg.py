@@ -9,9 +9,10 @@ from hypothesis import given, settings, strategies as st
 
 from toolkit import L2Projector, Mesh, project_l2
 from toolkit.core.elements import ELEMENTS
-from toolkit.core.linalg import CGLayout, QuadratureSum, Scaled, assemble_csr, assemble_many, block_cg, row_slice
+from toolkit.core.assembly import QuadratureSum, Scaled, assemble_csr, assemble_many
+from toolkit.core.cg import CGLayout, block_cg, row_slice
 from toolkit.fem.models import box_mesh, rectangle_mesh
-from toolkit.recovery.projection import unit_mass_inverse
+from toolkit.recovery.preconditioner import unit_mass_inverse
 from test_recovery import _field, _smooth
 
 
@@ -180,7 +181,7 @@ def test_row_slice_is_a_view_and_multiplies_like_a_copy():
 def test_per_cell_in_chunks_matches_einsum(monkeypatch):
     """per_cell (one BLAS product per block, weighted cells in chunks)
     against the plain definition, with chunks far smaller than the block."""
-    import toolkit.core.linalg as la
+    import toolkit.core.assembly as la
     monkeypatch.setattr(la, "PER_CELL_CHUNK", 7)
     rng = np.random.default_rng(5)
     T, V, w = rng.normal(size=(5, 4)), rng.normal(size=(30, 4, 3)), rng.uniform(size=(30, 4))

@@ -220,7 +220,7 @@ def test_morton_codes_follow_the_z_order():
     """Z-order (Morton 1966): interleave the coordinates' bits, x in the
     lowest; on a 4x4 grid the curve visits the 2x2 quadrants in Z pattern
     and each quadrant's points in the same pattern."""
-    from toolkit.recovery.projection import morton_codes
+    from toolkit.recovery.renumber import morton_codes
     xy = np.array([(x, y) for y in range(4) for x in range(4)], dtype=float)
     order = np.argsort(morton_codes(xy))
     expected = [(0, 0), (1, 0), (0, 1), (1, 1), (2, 0), (3, 0), (2, 1), (3, 1),
@@ -311,3 +311,27 @@ def test_lumped_reproduces_linear_fields(name, npts):
     nf = project_l2(_field(m, _linear, npts), lumped=True)
     np.testing.assert_allclose(nf.values, _linear(m.nodes), atol=1e-11)
     assert nf.info["method"] == "lumped"
+
+
+def test_method_registry_runs_each_method_by_name():
+    """One registry (toolkit.recovery.METHODS): each name runs its function
+    with the same result as the direct call; the command line and the
+    workbook steps read their methods from it."""
+    import toolkit.cli
+    from toolkit.recovery import METHODS, recover, recover_spr
+    from toolkit.report.steps import recover_all
+    m = _mesh("quad4", n=4)
+    fld = _field(m, _smooth)
+    direct = {"l2": project_l2(fld, across_regions=True), "lumped": project_l2(fld, lumped=True, across_regions=True),
+              "average": average_nodal(fld, across_regions=True), "spr": recover_spr(fld, across_regions=True)}
+    assert list(METHODS) == list(direct) == list(toolkit.cli.METHODS)
+    for name, ref in direct.items():
+        got = recover(fld, name, across_regions=True)
+        np.testing.assert_array_equal(got.values, ref.values)
+        assert got.method == ref.method and toolkit.cli.METHODS[name] == METHODS[name].description
+    assert list(recover_all(fld)) == ["L2 projection", "nodal averaging", "patch recovery (SPR)"]
+    assert recover(fld, "l2", rtol=1e-6).info["rtol"] == 1e-6
+    with pytest.raises(ValueError, match="unknown recovery method 'xx'; use one of l2, lumped, average, spr"):
+        recover(fld, "xx")
+    with pytest.raises(ValueError, match="fixes lumped"):
+        recover(fld, "lumped", lumped=False)

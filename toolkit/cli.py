@@ -32,32 +32,18 @@ import time
 import traceback
 from pathlib import Path
 
-from toolkit.errors import InputError, StresspathError, WorkbookExecutionError
+from toolkit.errors import StresspathError, WorkbookExecutionError
+from toolkit.recovery.methods import METHODS as RECOVERY_METHODS, recover
 
-#: Recovery methods by their command-line name, with a one-line description (see ``_recover``).
-METHODS = {
-    "l2": "global L2 projection, consistent mass matrix (Hinton & Campbell 1974)",
-    "lumped": "L2 projection with the HRZ-lumped mass matrix (Hinton, Rock & Zienkiewicz 1976)",
-    "average": "extrapolate each element to its nodes, then average",
-    "spr": "superconvergent patch recovery (Zienkiewicz & Zhu 1992)",
-}
+#: Recovery methods by their command-line name, with a one-line description (from the registry
+#: :data:`toolkit.recovery.METHODS`).
+METHODS = {name: m.description for name, m in RECOVERY_METHODS.items()}
 
 LARGE_INPUT_BYTES = 20_000_000   # --progress auto: report stages above this input size
 
 
 def _recover(field, method: str, across_regions: bool):
-    from toolkit.recovery.projection import average_nodal, project_l2
-
-    if method == "l2":
-        return project_l2(field, across_regions=across_regions)
-    if method == "lumped":
-        return project_l2(field, lumped=True, across_regions=across_regions)
-    if method == "average":
-        return average_nodal(field, across_regions=across_regions)
-    if method == "spr":
-        from toolkit.recovery.spr import recover_spr
-        return recover_spr(field, across_regions=across_regions)
-    raise InputError(f"unknown method {method!r}; use one of {', '.join(METHODS)}")
+    return recover(field, method, across_regions=across_regions)
 
 
 # ---------------------------------------------------------------------------

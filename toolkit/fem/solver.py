@@ -23,7 +23,7 @@ import numpy as np
 
 from toolkit.errors import InputError
 from toolkit.core.fields import GaussField
-from toolkit.core.linalg import assemble_csr, default_threads
+from toolkit.core.assembly import assemble_csr, default_threads
 from toolkit.core.mesh import Mesh
 from toolkit.fem.elasticity import element_stiffness, stress_and_strain
 from toolkit.fem.loads import load_vector

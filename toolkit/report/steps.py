@@ -4,26 +4,20 @@ from __future__ import annotations
 
 import numpy as np
 
-from toolkit.errors import InputError
 from toolkit.assess.convergence import grid_convergence
-from toolkit.recovery.projection import average_nodal, project_l2
+from toolkit.recovery.methods import METHODS, recover
 from toolkit.report.tables import Table, headless
-from toolkit.recovery.spr import recover_spr
 
 __all__ = ["METHODS", "recover_all", "convergence_study", "convergence_lines", "check_table"]
 
-METHODS = {"l2": ("L2 projection", project_l2), "average": ("nodal averaging", average_nodal),
-           "spr": ("patch recovery (SPR)", recover_spr)}
-
 
 def recover_all(field, methods=("l2", "average", "spr")) -> dict:
-    """``{label: NodalField}`` for each method name in ``methods``."""
+    """``{label: NodalField}`` for each method name in ``methods`` (keys of
+    the registry :data:`toolkit.recovery.METHODS`, whose labels these are)."""
     out = {}
     for m in methods:
-        if m not in METHODS:
-            raise InputError(f"unknown recovery method {m!r}; use one of {', '.join(METHODS)}")
-        label, fn = METHODS[m]
-        out[label] = fn(field)
+        nodal = recover(field, m)               # raises for an unknown name
+        out[METHODS[m].label] = nodal
     return out
 
 

@@ -18,7 +18,7 @@ from toolkit.core.fields import GaussField
 from toolkit.io import write_nodal_csv
 from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
-from toolkit.recovery.projection import average_nodal, project_l2
+from toolkit.recovery import average_nodal, project_l2
 
 __all__ = ["kirsch_stress", "quarter_annulus_mesh", "main", "run_demo"]
 
