@@ -218,7 +218,7 @@ def sample(nodal: NodalField, path: Path, n=None, distances=None, region=None, o
     equally spaced points (default 101) or the given ``distances``.
     ``region``: read from cells of that region only (one side of a region
     boundary where the field carries one value per region).  Points outside
-    the mesh raise ValueError, or give NaN with ``outside="nan"``.  The
+    the mesh raise InputError, or give NaN with ``outside="nan"``.  The
     locator is built once per mesh and reused (pass one to choose its
     tolerance).
 

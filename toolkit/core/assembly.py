@@ -14,6 +14,8 @@ from concurrent.futures import ThreadPoolExecutor
 import numpy as np
 import scipy.sparse as sp
 
+from toolkit.errors import InputError
+
 __all__ = ["assemble_many", "Scaled", "QuadratureSum", "assemble_csr", "sum_to_unknowns", "per_cell", "csr_sharing",
            "default_threads"]
 
@@ -47,7 +49,7 @@ class Scaled:
         self.s = None if s is None else np.ascontiguousarray(s, dtype=float)
         k = self.K.shape[0]
         if self.K.shape != (k, k):
-            raise ValueError(f"Scaled: reference matrix must be square, got {self.K.shape}")
+            raise InputError(f"Scaled: reference matrix must be square, got {self.K.shape}")
         self.k = k
         self.size = len(self.w) * k * k
 
@@ -79,7 +81,7 @@ class QuadratureSum:
         self.w = np.ascontiguousarray(w, dtype=float)              # (m, q)
         self.N = np.ascontiguousarray(N, dtype=float)              # (q, k)
         if self.w.shape[1] != self.N.shape[0]:
-            raise ValueError(f"QuadratureSum: {self.w.shape[1]} weights per cell but {self.N.shape[0]} points")
+            raise InputError(f"QuadratureSum: {self.w.shape[1]} weights per cell but {self.N.shape[0]} points")
         self.k = self.N.shape[1]
         self.size = len(self.w) * self.k ** 2
 
@@ -162,15 +164,15 @@ def _entry_values(j, blocks, cell_dofs, ent_off):
     one block's array or factored form, else a function from global entry
     numbers to values."""
     if len(blocks) != len(cell_dofs):
-        raise ValueError(f"matrix {j}: {len(cell_dofs)} blocks of element matrices expected, got {len(blocks)}")
+        raise InputError(f"matrix {j}: {len(cell_dofs)} blocks of element matrices expected, got {len(blocks)}")
     v = [K if isinstance(K, _FACTORED) else np.asarray(K, dtype=float).reshape(-1) for K in blocks]
     for vb, d in zip(v, cell_dofs):
         if isinstance(vb, _FACTORED) and vb.k != d.shape[1]:
-            raise ValueError(f"matrix {j}: reference matrix of shape ({d.shape[1]}, {d.shape[1]}) expected, "
+            raise InputError(f"matrix {j}: reference matrix of shape ({d.shape[1]}, {d.shape[1]}) expected, "
                              f"got ({vb.k}, {vb.k})")
         if vb.size != d.size * d.shape[1]:
             m, k = d.shape
-            raise ValueError(f"matrix {j}: element matrices of shape ({m}, {k}, {k}) expected, "
+            raise InputError(f"matrix {j}: element matrices of shape ({m}, {k}, {k}) expected, "
                              f"got {vb.size} values")
     return v[0] if len(v) == 1 else _gatherer(v, ent_off, cell_dofs)
 

@@ -303,7 +303,7 @@ def evaluation_operator(loc: Location, layout: RowLayout, outside="raise", dista
     """Sparse matrix ``A`` (points x ``layout.nrows``) with ``A @ values`` the
     nodal field at the located points: row ``p`` holds ``N_a(xi_p)`` of the
     cell holding point ``p`` in the columns ``layout`` gives that cell's nodes
-    (in the cell's region).  Points outside the mesh raise ValueError with
+    (in the cell's region).  Points outside the mesh raise InputError with
     ``outside="raise"`` (``distances``, if given, name where along a path),
     or get one NaN entry in column 0 with ``outside="nan"``."""
     mesh = loc.mesh

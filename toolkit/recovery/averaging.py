@@ -8,6 +8,7 @@ import time
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.assembly import per_cell
 from toolkit.core.elements import local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
@@ -22,7 +23,7 @@ def average_nodal(field: GaussField, across_regions=False) -> NodalField:
     the plain mean at every shared node (within a region unless
     ``across_regions``)."""
     if not isinstance(field, GaussField):
-        raise ValueError("expected a GaussField")
+        raise InputError("expected a GaussField")
     t0 = time.perf_counter()
     mesh = field.mesh
     dofs = DofMap(mesh, across_regions)

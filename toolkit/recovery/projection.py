@@ -32,6 +32,7 @@ import time
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.assembly import QuadratureSum, assemble_many, default_threads, per_cell, sum_to_unknowns
 from toolkit.core.cg import CGLayout, block_cg
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
@@ -115,15 +116,15 @@ class L2Projector:
     def __init__(self, mesh: Mesh, lumped=False, across_regions=False, solver="cg", rtol=1e-10,
                  maxiter=None, renumber="auto", threads=None, preconditioner="auto"):
         if not isinstance(mesh, Mesh):
-            raise ValueError("L2Projector needs a Mesh")
+            raise InputError("L2Projector needs a Mesh")
         if solver not in ("cg", "direct"):
-            raise ValueError(f"solver must be 'cg' or 'direct', got {solver!r}")
+            raise InputError(f"solver must be 'cg' or 'direct', got {solver!r}")
         if renumber not in ("auto", True, False):
-            raise ValueError(f"renumber must be 'auto', True or False, got {renumber!r}")
+            raise InputError(f"renumber must be 'auto', True or False, got {renumber!r}")
         if preconditioner not in PRECONDITIONERS:
-            raise ValueError(f"preconditioner must be one of {', '.join(PRECONDITIONERS)}, got {preconditioner!r}")
+            raise InputError(f"preconditioner must be one of {', '.join(PRECONDITIONERS)}, got {preconditioner!r}")
         if not (0 < rtol < 1):
-            raise ValueError(f"rtol must lie in (0, 1), got {rtol}")
+            raise InputError(f"rtol must lie in (0, 1), got {rtol}")
         t0 = time.perf_counter()
         self.mesh = mesh
         self.lumped = bool(lumped)
@@ -243,9 +244,9 @@ class L2Projector:
 
     def _check_field(self, field):
         if not isinstance(field, GaussField):
-            raise ValueError("expected a GaussField")
+            raise InputError("expected a GaussField")
         if field.mesh is not self.mesh:
-            raise ValueError("the field belongs to another mesh than this projector was built for")
+            raise InputError("the field belongs to another mesh than this projector was built for")
 
     # -- solve -----------------------------------------------------------------
     def project(self, field: GaussField) -> NodalField:
@@ -254,7 +255,7 @@ class L2Projector:
         b = self.rhs(field)
         if not np.isfinite(b).all():
             a = int(np.flatnonzero(~np.isfinite(b).all(axis=0))[0])
-            raise ValueError(f"the right-hand side of component {field.components[a]} overflows: values of "
+            raise InputError(f"the right-hand side of component {field.components[a]} overflows: values of "
                              f"about {np.abs(next(iter(field.values.values()))).max():.3g} times cell sizes "
                              "exceed the floating-point range; rescale the values (units)")
         info = {"method": "lumped" if self.lumped else "l2", "ndof": self.dofs.ndof,

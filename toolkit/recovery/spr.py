@@ -47,6 +47,7 @@ import time
 
 import numpy as np
 
+from toolkit.errors import InputError
 from toolkit.core.elements import local_field_exponents, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.numbering import DofMap
@@ -69,7 +70,7 @@ def patch_exponents(dim: int, degree: int) -> np.ndarray:
     shape = "tri" if dim == 2 else "tet"
     n = {(2, 1): 3, (2, 2): 6, (3, 1): 4, (3, 2): 10}.get((dim, degree))
     if n is None:
-        raise ValueError(f"no SPR patch polynomial of degree {degree} in {dim}D (use 1 or 2)")
+        raise InputError(f"no SPR patch polynomial of degree {degree} in {dim}D (use 1 or 2)")
     return local_field_exponents(shape, n)[0]
 
 
@@ -125,9 +126,9 @@ def recover_spr(field: GaussField, across_regions: bool = False, rcond: float = 
         of their least-squares matrix are rank-deficient and not used.
     """
     if not isinstance(field, GaussField):
-        raise ValueError("recover_spr needs a GaussField")
+        raise InputError("recover_spr needs a GaussField")
     if not (0 < rcond < 1):
-        raise ValueError(f"rcond must lie in (0, 1), got {rcond}")
+        raise InputError(f"rcond must lie in (0, 1), got {rcond}")
     t0 = time.perf_counter()
     mesh = field.mesh
     dofs = DofMap(mesh, across_regions)
@@ -151,7 +152,7 @@ def recover_spr(field: GaussField, across_regions: bool = False, rcond: float = 
     if left.any():
         i = int(np.flatnonzero(left)[0])
         reg = int(dofs.region[i])
-        raise ValueError(f"recover_spr: node {int(mesh.node_ids[dofs.node[i]])}"
+        raise InputError(f"recover_spr: node {int(mesh.node_ids[dofs.node[i]])}"
                          f"{'' if reg < 0 else f' (region {reg})'} lies in no patch with enough sampling points "
                          f"for a determined fit ({int(left.sum())} such nodes); refine the mesh or use project_l2")
     x = nodal.total / nodal.count[:, None]
