@@ -33,12 +33,14 @@ def unit_mass_inverse(element) -> np.ndarray:
 
 
 def resolve_preconditioner(preconditioner: str, mesh) -> str:
-    """``"auto"`` becomes ``"element"``, except ``"jacobi"`` on meshes of
-    serendipity elements (quad8, hex20), where the element preconditioner
-    saves iterations but not sparse products; other names stay."""
+    """``"auto"`` becomes what every block's element type declares
+    (``ElementType.projection_preconditioner``): ``"jacobi"`` when all blocks
+    ask for it (the serendipity types quad8 and hex20, where the element
+    preconditioner saves iterations but not sparse products), else
+    ``"element"``; other names stay."""
     if preconditioner == "auto":
-        serendipity = all(b.element.name in ("quad8", "hex20") for b in mesh.blocks)
-        preconditioner = "jacobi" if serendipity else "element"
+        wanted = {b.element.projection_preconditioner for b in mesh.blocks}
+        preconditioner = "jacobi" if wanted == {"jacobi"} else "element"
     return preconditioner
 
 
