@@ -23,12 +23,13 @@ any assumed order when mapping data to points.
 """
 from __future__ import annotations
 
+import itertools
 from dataclasses import dataclass, field
 from functools import cached_property
-import itertools
 
 import numpy as np
 
+from toolkit.core.arrays import readonly
 from toolkit.errors import InputError
 
 __all__ = [
@@ -67,12 +68,8 @@ class QuadratureRule:
     degree: int
 
     def __post_init__(self):
-        pts = np.ascontiguousarray(self.points, dtype=float)
-        w = np.ascontiguousarray(self.weights, dtype=float)
-        pts.setflags(write=False)
-        w.setflags(write=False)
-        object.__setattr__(self, "points", pts)
-        object.__setattr__(self, "weights", w)
+        object.__setattr__(self, "points", readonly(np.asarray(self.points, dtype=float)))
+        object.__setattr__(self, "weights", readonly(np.asarray(self.weights, dtype=float)))
 
     @property
     def npoints(self) -> int:
@@ -280,10 +277,8 @@ class ElementType:
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self):
-        nodes = np.asarray(self.nodes, dtype=float)
-        exps = np.asarray(self.exponents, dtype=int)
-        nodes.setflags(write=False)
-        exps.setflags(write=False)
+        nodes = readonly(np.asarray(self.nodes, dtype=float))
+        exps = readonly(np.asarray(self.exponents, dtype=int))
         object.__setattr__(self, "nodes", nodes)
         object.__setattr__(self, "exponents", exps)
         if exps.shape != nodes.shape:
