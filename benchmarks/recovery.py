@@ -40,6 +40,8 @@ import time
 
 import numpy as np
 
+sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir, "tests"))  # the skfem bridge
+
 COMPONENTS = ("sxx", "syy", "sxy")
 MIB = 2.0 ** 20
 
@@ -175,38 +177,33 @@ def element_loop_projection(mesh, field):
     return spsolve(M, b)
 
 
-SKFEM_ELEMENT = {"quad4": "ElementQuad1", "quad8": "ElementQuadS2", "quad9": "ElementQuad2"}
+SKFEM_QUAD = ("quad4", "quad8", "quad9")
 
 
 def skfem_setup(mesh, field):
-    """Everything scikit-fem needs, prepared outside the timed call: its mesh
-    arrays (corner nodes; vertex order matched to skfem's reference vertices
-    by coordinates), the intorder whose tensor Gauss rule has our point
-    count, our Gauss-point values permuted to skfem's point order per cell
-    (matched by physical coordinates) and skfem's dof -> our node map
-    (matched by coordinates).  Returns ``(run, to_nodes, note)``."""
+    """Everything scikit-fem needs, prepared outside the timed call, through
+    the bridge the tests use (tests/helpers.py): its corner-node mesh (vertex
+    order matched to scikit-fem's reference vertices by coordinates), the
+    intorder whose tensor Gauss rule has our point count, our Gauss-point
+    values permuted to scikit-fem's point order per cell (matched by physical
+    coordinates) and its dof -> our node map (matched by coordinates).
+    Returns ``(run, to_nodes, note)``; ``run`` builds the basis, assembles and
+    solves (SuperLU)."""
     import skfem
-    from scipy.sparse.linalg import spsolve
-    from scipy.spatial import cKDTree
+    from helpers import SKFEM_TYPES, skfem_corner_mesh, skfem_l2_solve, skfem_node_of_dof
 
     blk = mesh.blocks[0]
     et = blk.element
-    if et.name not in SKFEM_ELEMENT:
-        raise ValueError(f"no scikit-fem counterpart wired up for {et.name}")
-    elem_cls = getattr(skfem, SKFEM_ELEMENT[et.name])
-    ref_sk = skfem.MeshQuad1.elem.refdom.p.T
-    ours = (et.nodes[:et.ncorners] + 1.0) / 2.0
-    order = np.linalg.norm(ref_sk[:, None] - ours[None], axis=-1).argmin(axis=1)
-    corners = blk.cells[:, :et.ncorners][:, order]
-    used = np.unique(corners)
-    renum = np.full(mesh.nnodes, -1, dtype=np.int64)
-    renum[used] = np.arange(len(used))
-    p = np.ascontiguousarray(mesh.nodes[used].T)
-    t = np.ascontiguousarray(renum[corners].T.astype(np.int32))
+    if et.name not in SKFEM_QUAD:
+        raise ValueError(f"no scikit-fem counterpart wired up for {et.name} in this benchmark")
+    skmesh, elem = skfem_corner_mesh(mesh)
+    p, t = skmesh.p, skmesh.t
+    mesh_cls = type(skmesh)
+    elem_cls = type(elem)
     q = field.points[blk.name].shape[0]
     per = int(round(math.sqrt(q)))
     intorder = 2 * per - 1
-    basis = skfem.Basis(skfem.MeshQuad1(p, t), elem_cls(), intorder=intorder)
+    basis = skfem.Basis(skmesh, elem, intorder=intorder)
     if basis.X.shape[1] != q:
         raise RuntimeError(f"skfem intorder {intorder} gives {basis.X.shape[1]} points, expected {q}")
     xs = np.moveaxis(np.asarray(basis.global_coordinates()), 0, -1)        # (c, j, 2)
@@ -220,25 +217,18 @@ def skfem_setup(mesh, field):
         if np.take_along_axis(d, idx[..., None], axis=2).max() > tol:
             raise RuntimeError("skfem quadrature points do not coincide with the Gauss points of the data")
         F[s:s + 100000] = np.take_along_axis(V[s:s + 100000], idx[..., None], axis=1)
-    dist, node_of_dof = cKDTree(mesh.nodes).query(basis.doflocs.T)
-    if dist.max() > tol or len(np.unique(node_of_dof)) != mesh.nnodes:
-        raise RuntimeError("skfem dofs do not match the mesh nodes one to one")
-    del basis, xs, xo
-    mass = skfem.BilinearForm(lambda u, v, w: u * v)
-    rhs = skfem.LinearForm(lambda v, w: w["f"] * v)
+    node_of_dof = skfem_node_of_dof(mesh, basis)
+    del basis, xs, xo, skmesh
 
     def run():
-        basis = skfem.Basis(skfem.MeshQuad1(p, t), elem_cls(), intorder=intorder)
-        M = skfem.asm(mass, basis)
-        B = np.column_stack([skfem.asm(rhs, basis, f=F[..., a]) for a in range(F.shape[2])])
-        return spsolve(M, B)
+        return skfem_l2_solve(skfem.Basis(mesh_cls(p, t), elem_cls(), intorder=intorder), F)
 
     def to_nodes(X):
         out = np.empty_like(X)
         out[node_of_dof] = X
         return out
 
-    note = f"{SKFEM_ELEMENT[et.name]} on MeshQuad1, intorder {intorder} ({q} pts), SuperLU"
+    note = f"{SKFEM_TYPES[et.name][1]} on MeshQuad1, intorder {intorder} ({q} pts), SuperLU"
     return run, to_nodes, note
 
 
@@ -498,8 +488,8 @@ def main(argv=None):
     types = [t.strip() for t in args.types.split(",") if t.strip()]
     loop_sizes = {parse_size(s) for s in args.loop_sizes.split(",")} if args.loop_sizes else {sizes[0]}
     for t in types:
-        if t not in SKFEM_ELEMENT:
-            raise ValueError(f"--types: {t!r} is not one of {', '.join(SKFEM_ELEMENT)} (rectangle meshes)")
+        if t not in SKFEM_QUAD:
+            raise ValueError(f"--types: {t!r} is not one of {', '.join(SKFEM_QUAD)} (rectangle meshes)")
     memory = args.memory or ("rss" if rss_reset_works() else "tracemalloc")
     if memory == "rss" and not rss_reset_works():
         raise ValueError("--memory rss needs a writable /proc/self/clear_refs (Linux); use --memory tracemalloc")

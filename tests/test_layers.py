@@ -175,3 +175,16 @@ def test_an_upward_import_is_caught(module, source, expected):
 ])
 def test_allowed_imports_pass(module, source):
     assert violations({module: source}) == []
+
+
+def test_no_test_module_imports_another():
+    """Shared test code lives in tests/helpers.py; a test module importing
+    another runs that module's tests twice and ties them together."""
+    tests = Path(__file__).resolve().parent
+    found = []
+    for p in sorted(tests.glob("*.py")):
+        for node in ast.walk(ast.parse(p.read_text(encoding="utf-8"))):
+            names = ([a.name for a in node.names] if isinstance(node, ast.Import)
+                     else [node.module or ""] if isinstance(node, ast.ImportFrom) else [])
+            found += [f"{p.name}:{node.lineno} imports {n}" for n in names if n.split(".")[0].startswith("test_")]
+    assert not found, "\n".join(found)

@@ -13,7 +13,7 @@ from toolkit.core.assembly import QuadratureSum, Scaled, assemble_csr, assemble_
 from toolkit.core.cg import CGLayout, block_cg, row_slice
 from toolkit.fem.models import box_mesh, rectangle_mesh
 from toolkit.recovery.preconditioner import unit_mass_inverse
-from test_recovery import _field, _smooth
+from helpers import gauss_field_of, smooth_scalar
 
 
 def _coo_reference(cell_dofs, mats, n):
@@ -152,7 +152,7 @@ def test_jacobi_condition_number_matches_wathen_and_element_preconditioner_beats
 @pytest.mark.parametrize("name", ["quad4", "tri6", "quad9", "hex8"])
 def test_element_preconditioner_saves_iterations_and_agrees(name):
     m = box_mesh(name, 6, 5, 4) if name == "hex8" else rectangle_mesh(name, 30, 24, distort=0.3, seed=4)
-    f = _field(m, _smooth)
+    f = gauss_field_of(m, smooth_scalar)
     a = project_l2(f, preconditioner="element", rtol=1e-12)
     b = project_l2(f, preconditioner="jacobi", rtol=1e-12)
     np.testing.assert_allclose(a.values, b.values, atol=1e-9 * np.abs(b.values).max())

@@ -9,6 +9,7 @@ Int. J. Numer. Meth. Eng. 8, 461-480).
 import numpy as np
 import pytest
 
+from helpers import gauss_field_of, smooth_scalar
 from toolkit import GaussField, L2Projector, Mesh, average_nodal, project_l2
 from toolkit.core.elements import ELEMENTS
 from toolkit.fem.models import box_mesh, rectangle_mesh
@@ -18,15 +19,6 @@ def _mesh(name, n=3, distort=0.3, seed=0):
     if ELEMENTS[name].dim == 2:
         return rectangle_mesh(name, n, n, size=(2.0, 1.5), origin=(0.5, -0.2), distort=distort, seed=seed)
     return box_mesh(name, 2, 2, 2, size=(1.0, 1.5, 1.2), distort=distort, seed=seed)
-
-
-def _field(mesh, f, points="full", comps=None):
-    vals, pts = {}, {}
-    for b in mesh.blocks:
-        x = mesh.geometry(b.name, points if not isinstance(points, dict) else points[b.name]).x_cqi
-        vals[b.name] = f(x)
-    ncomp = next(iter(vals.values())).shape[-1]
-    return GaussField(mesh, vals, comps or [f"s{i}" for i in range(ncomp)], points=points)
 
 
 def _linear(x):
@@ -47,7 +39,7 @@ CONSTANT_CASES = [(n, p) for n in ELEMENTS for p in ("full", "reduced")]
 @pytest.mark.parametrize("name,points", CONSTANT_CASES)
 def test_patch_constant(name, points):
     m = _mesh(name)
-    fld = _field(m, lambda x: np.stack([np.full(x.shape[:-1], 7.5), np.full(x.shape[:-1], -2.0)], -1), points)
+    fld = gauss_field_of(m, lambda x: np.stack([np.full(x.shape[:-1], 7.5), np.full(x.shape[:-1], -2.0)], -1), points)
     nf = project_l2(fld, rtol=1e-14)
     np.testing.assert_allclose(nf.values, np.broadcast_to([7.5, -2.0], nf.values.shape), atol=1e-10)
 
@@ -60,7 +52,7 @@ LINEAR_CASES = [("quad4", 4), ("quad8", 9), ("quad8", 4), ("quad9", 9), ("quad9"
 @pytest.mark.parametrize("name,npts", LINEAR_CASES)
 def test_patch_linear_on_distorted_mesh(name, npts):
     m = _mesh(name, distort=0.35)
-    fld = _field(m, _linear, npts)
+    fld = gauss_field_of(m, _linear, npts)
     exact = _linear(m.nodes)
     nf = project_l2(fld, rtol=1e-14)
     np.testing.assert_allclose(nf.values, exact, atol=1e-10)
@@ -79,7 +71,7 @@ def test_patch_quadratic_on_parallelograms(name, npts):
     m0 = _mesh(name, distort=0.0)
     A = np.array([[1.0, 0.4], [0.1, 0.9]]) if m0.dim == 2 else np.array([[1, 0.3, 0.1], [0.0, 1.1, 0.2], [0.1, 0, 0.9]])
     m = Mesh(m0.nodes @ A.T, {b.name: b.cells for b in m0.blocks})
-    fld = _field(m, _quadratic, npts)
+    fld = gauss_field_of(m, _quadratic, npts)
     nf = project_l2(fld, rtol=1e-14)
     np.testing.assert_allclose(nf.values, _quadratic(m.nodes), atol=1e-10)
 
@@ -87,15 +79,11 @@ def test_patch_quadratic_on_parallelograms(name, npts):
 def test_patch_mixed_tri_quad_mesh():
     nodes = np.array([[0, 0], [1, 0], [1, 1], [0, 1], [2, 0.2], [2.1, 1.3]], float)
     m = Mesh(nodes, {"quad4": [[0, 1, 2, 3]], "tri3": [[1, 4, 2], [4, 5, 2]]})
-    fld = _field(m, _linear, {"quad4": "full", "tri3": 3})
+    fld = gauss_field_of(m, _linear, {"quad4": "full", "tri3": 3})
     nf = project_l2(fld, rtol=1e-14)
     np.testing.assert_allclose(nf.values, _linear(nodes), atol=1e-10)
     na = average_nodal(fld)
     np.testing.assert_allclose(na.values, _linear(nodes), atol=1e-12)
-
-
-def _smooth(x):
-    return np.stack([np.sin(2 * x[..., 0]) * np.cos(1.5 * x[..., 1]) + x[..., 0] ** 3], -1)
 
 
 def _nodal_l2_error(mesh, nf, f):
@@ -119,9 +107,9 @@ def test_convergence_rate(name, rate, capsys):
     hs, errs = [], []
     for n in (8, 16, 32):
         m = rectangle_mesh(name, n, n, size=(1.0, 1.0))
-        nf = project_l2(_field(m, _smooth, pts), rtol=1e-13)
+        nf = project_l2(gauss_field_of(m, smooth_scalar, pts), rtol=1e-13)
         hs.append(1.0 / n)
-        errs.append(_nodal_l2_error(m, nf, _smooth))
+        errs.append(_nodal_l2_error(m, nf, smooth_scalar))
     slopes = np.diff(np.log(errs)) / np.diff(np.log(hs))
     with capsys.disabled():
         print(f"\n  {name}: L2 errors {['%.3e' % e for e in errs]}, observed rates {np.round(slopes, 3).tolist()}")
@@ -185,7 +173,7 @@ def test_reduced_rule_rhs_reproduces_linear_on_curved_jacobian():
     rule exact for N^T G det J)."""
     for name, npts in (("quad8", 4), ("tri6", 3)):
         m = rectangle_mesh(name, 3, 3, distort=0.4, seed=5)
-        nf = project_l2(_field(m, _linear, npts), rtol=1e-14)
+        nf = project_l2(gauss_field_of(m, _linear, npts), rtol=1e-14)
         np.testing.assert_allclose(nf.values, _linear(m.nodes), atol=1e-10)
 
 
@@ -196,8 +184,8 @@ def test_projector_reuse_and_renumbering():
     inv = np.empty_like(perm)
     inv[perm] = np.arange(m.nnodes)
     ms = Mesh(m.nodes[perm], {"quad8": inv[m.block("quad8").cells]})
-    f1 = _field(ms, _smooth)
-    f2 = _field(ms, _linear)
+    f1 = gauss_field_of(ms, smooth_scalar)
+    f2 = gauss_field_of(ms, _linear)
     pr = L2Projector(ms, renumber=True, rtol=1e-13)
     pn = L2Projector(ms, renumber=False, rtol=1e-13)
     assert pr.renumbered and not pn.renumbered
@@ -205,7 +193,7 @@ def test_projector_reuse_and_renumbering():
         np.testing.assert_allclose(pr.project(f).values, pn.project(f).values, atol=1e-11)
     np.testing.assert_allclose(pr.project(f2).values, _linear(ms.nodes), atol=1e-10)
     # the same answers as on the original numbering
-    ref = project_l2(_field(m, _smooth), rtol=1e-13).values
+    ref = project_l2(gauss_field_of(m, smooth_scalar), rtol=1e-13).values
     np.testing.assert_allclose(pr.project(f1).values, ref[perm], atol=1e-11)
     # auto renumbers a shuffled mesh of some size but not a well-ordered one
     big = rectangle_mesh("quad4", 40, 40)
@@ -251,7 +239,7 @@ def test_renumbering_changes_nothing_but_the_speed(kind):
     inv[perm] = np.arange(m.nnodes)
     regions = {name: m.block(name).regions}
     ms = Mesh(m.nodes[perm], {name: inv[m.block(name).cells]}, regions=regions)
-    f = _field(ms, _smooth)
+    f = gauss_field_of(ms, smooth_scalar)
     a = L2Projector(ms, renumber=True, rtol=1e-13).project(f)
     b = L2Projector(ms, renumber=False, rtol=1e-13).project(f)
     assert a.info["renumbered"] and not b.info["renumbered"]
@@ -264,13 +252,13 @@ def test_renumbering_changes_nothing_but_the_speed(kind):
 
 def test_projector_errors_and_info():
     m = rectangle_mesh("quad4", 3, 3)
-    f = _field(m, _linear)
+    f = gauss_field_of(m, _linear)
     with pytest.raises(ValueError, match="another mesh"):
         L2Projector(rectangle_mesh("quad4", 3, 3)).project(f)
     with pytest.raises(ValueError, match="solver must be"):
         L2Projector(m, solver="gmres")
     with pytest.raises(RuntimeError, match="did not reach rtol"):
-        project_l2(_field(m, _smooth), maxiter=1, rtol=1e-14)
+        project_l2(gauss_field_of(m, smooth_scalar), maxiter=1, rtol=1e-14)
     nf = project_l2(f)
     assert nf.info["solver"] == "cg" and len(nf.info["iterations"]) == 3
     assert max(nf.info["relative_residual"]) <= 1e-10
@@ -283,7 +271,7 @@ def test_average_nodal_extrapolates_with_local_field():
     """Averaging of a linear field sampled at 2x2 Gauss points: the bilinear
     local field extrapolates exactly to the nodes (common practice)."""
     m = rectangle_mesh("quad4", 4, 3, distort=0.0)
-    na = average_nodal(_field(m, _linear))
+    na = average_nodal(gauss_field_of(m, _linear))
     np.testing.assert_allclose(na.values, _linear(m.nodes), atol=1e-12)
     # a discontinuous field: interior node value is the plain mean of the cells' extrapolations
     m2, fld = _two_squares([1.0, 3.0], regions=(0, 0))
@@ -308,7 +296,7 @@ def test_lumped_reproduces_linear_fields(name, npts):
     masses; the pairing with the nodal-quadrature RHS is our design, see
     toolkit/recovery.py)."""
     m = _mesh(name, distort=0.35)
-    nf = project_l2(_field(m, _linear, npts), lumped=True)
+    nf = project_l2(gauss_field_of(m, _linear, npts), lumped=True)
     np.testing.assert_allclose(nf.values, _linear(m.nodes), atol=1e-11)
     assert nf.info["method"] == "lumped"
 
@@ -321,7 +309,7 @@ def test_method_registry_runs_each_method_by_name():
     from toolkit.recovery import METHODS, recover, recover_spr
     from toolkit.report.steps import recover_all
     m = _mesh("quad4", n=4)
-    fld = _field(m, _smooth)
+    fld = gauss_field_of(m, smooth_scalar)
     direct = {"l2": project_l2(fld, across_regions=True), "lumped": project_l2(fld, lumped=True, across_regions=True),
               "average": average_nodal(fld, across_regions=True), "spr": recover_spr(fld, across_regions=True)}
     assert list(METHODS) == list(direct) == list(toolkit.cli.METHODS)

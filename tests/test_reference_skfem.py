@@ -38,35 +38,15 @@ from __future__ import annotations
 
 import numpy as np
 import pytest
-from scipy.sparse.linalg import spsolve
-from scipy.spatial import cKDTree
 
 skfem = pytest.importorskip("skfem")
 
+from helpers import skfem_corner_mesh, skfem_l2_solve, skfem_node_of_dof  # noqa: E402
 from toolkit import GaussField, project_l2  # noqa: E402
 from toolkit.core.mesh import inverse_map  # noqa: E402
 from toolkit.fem.models import box_mesh, rectangle_mesh  # noqa: E402
 
 SKFEM_VERSION = tuple(int(p) for p in skfem.__version__.split(".")[:2])
-
-# our type -> (skfem mesh class, skfem element class); quadratic types use
-# skfem's corner-node mesh (straight edges: the same affine/bi/trilinear map)
-SKFEM_TYPES = {
-    "quad4": ("MeshQuad1", "ElementQuad1"),
-    "quad8": ("MeshQuad1", "ElementQuadS2"),
-    "quad9": ("MeshQuad1", "ElementQuad2"),
-    "tri3": ("MeshTri1", "ElementTriP1"),
-    "tri6": ("MeshTri1", "ElementTriP2"),
-    "tet4": ("MeshTet1", "ElementTetP1"),
-    "tet10": ("MeshTet1", "ElementTetP2"),
-    "hex8": ("MeshHex1", "ElementHex1"),
-    "hex20": ("MeshHex1", "ElementHexS2"),
-}
-
-
-# a rotation of the reference element's corners (our local corner numbers)
-ROTATE = {"quad": [1, 2, 3, 0], "hex": [1, 2, 3, 0, 5, 6, 7, 4], "tri": [1, 2, 0], "tet": [1, 2, 0, 3]}
-
 
 def test_reference_library_version():
     # the comparisons below were written against scikit-fem 12
@@ -79,43 +59,20 @@ def _mesh(etype, distort):
     return rectangle_mesh(etype, 5, 4, size=(2.0, 1.3), origin=(0.5, -0.4), distort=distort, seed=7)
 
 
-def _to_skfem_reference(et, xi):
-    """Our natural coordinates -> skfem's reference coordinates (affine)."""
-    return (xi + 1.0) / 2.0 if et.shape in ("quad", "hex") else xi
-
-
 class SkfemCase:
-    """scikit-fem's view of one of our single-block meshes."""
+    """scikit-fem's view of one of our single-block meshes (every other cell
+    rotated, so point matching by coordinates is really exercised)."""
 
     def __init__(self, mesh, intorder):
         blk = mesh.blocks[0]
         self.mesh, self.blk, self.et = mesh, blk, blk.element
         et = self.et
-        mesh_cls, elem_cls = (getattr(skfem, n) for n in SKFEM_TYPES[et.name])
-        # skfem vertex order: match skfem's reference vertices to our corners
-        ref_sk = mesh_cls.elem.refdom.p.T                                  # (ncorners, dim)
-        ours = _to_skfem_reference(et, et.nodes[:et.ncorners])
-        d = np.linalg.norm(ref_sk[:, None, :] - ours[None, :, :], axis=-1)
-        order = d.argmin(axis=1)
-        assert np.allclose(d[np.arange(len(order)), order], 0.0) and len(set(order)) == len(order)
-        # give every other skfem cell a rotated vertex order (a symmetry of the
-        # reference element), so its quadrature points sit at different natural
-        # coordinates of ours than in the neighbouring cells: point matching
-        # by coordinates is then really exercised
-        corners = np.array(blk.cells[:, :et.ncorners])
-        corners[1::2] = corners[1::2][:, ROTATE[et.shape]]
-        corners = corners[:, order]
-        used = np.unique(corners)
-        renum = np.full(mesh.nnodes, -1)
-        renum[used] = np.arange(len(used))
-        self.skmesh = mesh_cls(np.ascontiguousarray(mesh.nodes[used].T), np.ascontiguousarray(renum[corners].T))
-        self.basis = skfem.Basis(self.skmesh, elem_cls(), intorder=intorder)
+        self.skmesh, elem = skfem_corner_mesh(mesh, rotate_alternate=True)
+        self.basis = skfem.Basis(self.skmesh, elem, intorder=intorder)
         # skfem's element e must be our cell e (same corner centroids)
         cent_sk = self.skmesh.p[:, self.skmesh.t].mean(axis=1).T
         assert np.allclose(cent_sk, mesh.nodes[blk.cells[:, :et.ncorners]].mean(axis=1), atol=1e-12)
-        # skfem dofs -> our nodes, by physical coordinates
-        dist, self.node_of_dof = cKDTree(mesh.nodes).query(self.basis.doflocs.T)
-        assert dist.max() < 1e-12 and len(np.unique(self.node_of_dof)) == self.basis.N == mesh.nnodes
+        self.node_of_dof = skfem_node_of_dof(mesh, self.basis)
         # skfem quadrature points in every cell -> our natural coordinates
         xq = np.asarray(self.basis.global_coordinates())              # (dim, c, q)
         self.x_cqi = np.moveaxis(xq, 0, -1)
@@ -139,10 +96,7 @@ class SkfemCase:
     def project(self, F_cqa):
         """skfem's L2 projection of values at its quadrature points (c, q, a),
         returned in our node order (n, a)."""
-        M = skfem.asm(skfem.BilinearForm(lambda u, v, w: u * v), self.basis)
-        rhs = skfem.LinearForm(lambda v, w: w["f"] * v)
-        B = np.column_stack([skfem.asm(rhs, self.basis, f=F_cqa[..., a]) for a in range(F_cqa.shape[-1])])
-        X = spsolve(M.tocsc(), B)
+        X = skfem_l2_solve(self.basis, F_cqa)
         out = np.empty_like(X)
         out[self.node_of_dof] = X
         return out

@@ -12,16 +12,11 @@ Meth. Eng. 33, 1331-1364).
 import numpy as np
 import pytest
 
+from helpers import gauss_field_of
 from toolkit import GaussField, Mesh, project_l2
 from toolkit.fem.models import box_mesh, rectangle_mesh
 from toolkit.core.numbering import DofMap
 from toolkit.recovery.spr import recover_spr
-
-
-def _field(mesh, f, points="full"):
-    vals = {b.name: f(mesh.geometry(b.name, points).x_cqi) for b in mesh.blocks}
-    ncomp = next(iter(vals.values())).shape[-1]
-    return GaussField(mesh, vals, [f"s{i}" for i in range(ncomp)], points=points)
 
 
 def _linear(x):
@@ -54,7 +49,7 @@ def test_exact_in_patch_space_2d(et, f, pts, n):
     boundary, on distorted straight-edged meshes (the data's local field
     holds these fields there, so the sampled values are exact)."""
     m = rectangle_mesh(et, n, n + 1, size=(2.0, 1.5), origin=(0.3, -0.4), distort=0.35, seed=1)
-    nf = recover_spr(_field(m, f, pts))
+    nf = recover_spr(gauss_field_of(m, f, pts))
     exact = f(m.nodes)
     np.testing.assert_allclose(nf.values, exact[nf.node], atol=1e-11)
     bnd = _boundary_nodes(m)
@@ -65,7 +60,7 @@ def test_exact_in_patch_space_2d(et, f, pts, n):
 @pytest.mark.parametrize("et,f", [("hex8", _linear), ("tet4", _linear), ("hex20", _quadratic), ("tet10", _quadratic)])
 def test_exact_in_patch_space_3d(et, f):
     m = box_mesh(et, 3, 3, 3, size=(1.0, 1.5, 1.2), distort=0.3)
-    nf = recover_spr(_field(m, f))
+    nf = recover_spr(gauss_field_of(m, f))
     np.testing.assert_allclose(nf.values, f(m.nodes)[nf.node], atol=1e-11)
 
 
@@ -73,7 +68,7 @@ def test_not_exact_beyond_patch_space():
     """A quadratic field is not in the linear patch space of quad4: the
     recovery must show an error (so the exactness tests can fail)."""
     m = rectangle_mesh("quad4", 4, 4, distort=0.2)
-    nf = recover_spr(_field(m, _quadratic))
+    nf = recover_spr(gauss_field_of(m, _quadratic))
     assert np.abs(nf.values - _quadratic(m.nodes)).max() > 1e-3
 
 
@@ -100,7 +95,7 @@ def test_converges_at_least_as_fast_as_l2_projection(et, pts, p, capsys):
     errs = {"spr": [], "l2": []}
     for n in (8, 16, 32):
         m = rectangle_mesh(et, n, n, size=(1.0, 1.0), distort=0.2)
-        fld = _field(m, _smooth, pts)
+        fld = gauss_field_of(m, _smooth, pts)
         errs["spr"].append(_l2_error(m, recover_spr(fld), _smooth))
         errs["l2"].append(_l2_error(m, project_l2(fld, rtol=1e-13), _smooth))
     rates = {k: np.diff(np.log(v)) / np.log(0.5) for k, v in errs.items()}
@@ -153,16 +148,16 @@ def test_mixed_tri_quad_mesh_linear():
 def test_errors():
     m = rectangle_mesh("quad4", 1, 1)
     with pytest.raises(ValueError, match="lies in no patch with enough sampling points"):
-        recover_spr(_field(m, _linear))
+        recover_spr(gauss_field_of(m, _linear))
     with pytest.raises(ValueError, match="needs a GaussField"):
         recover_spr(np.zeros(3))
     with pytest.raises(ValueError, match="rcond"):
-        recover_spr(_field(rectangle_mesh("quad4", 3, 3), _linear), rcond=2.0)
+        recover_spr(gauss_field_of(rectangle_mesh("quad4", 3, 3), _linear), rcond=2.0)
 
 
 def test_rows_match_dofmap():
     m = rectangle_mesh("tri6", 3, 3, regions=lambda c: (c[:, 1] > 0.5).astype(int))
-    nf = recover_spr(_field(m, _linear, 3))
+    nf = recover_spr(gauss_field_of(m, _linear, 3))
     d = DofMap(m, across_regions=False)
     np.testing.assert_array_equal(nf.node, d.node)
     np.testing.assert_array_equal(nf.region, d.region)
