@@ -7,7 +7,7 @@ import pytest
 from toolkit.core.elements import ELEMENTS
 from toolkit.core.mesh import Mesh
 from toolkit.fem.models import plate_with_hole, shoulder_fillet, weld_toe
-from toolkit.fem.models.common import _reflect_perm, edges_on
+from toolkit.fem.models.common import edges_on, reflect_permutation
 from toolkit.recovery.projection import project_l2
 from toolkit.fem import Material, Roller, Traction, edge_integral, solve
 
@@ -62,7 +62,7 @@ def test_spherical_cavity_axisymmetric():
     quarter plate mesh is revolved about its y = 0 edge (r = y, z = x)."""
     d, nu = 2.0, 0.3
     m = plate_with_hole(width=20 * d, length=40 * d, hole_diameter=d, element_size=d / 20)
-    cells = m.mesh.block("quad8").cells[:, _reflect_perm(ELEMENTS["quad8"])]
+    cells = m.mesh.block("quad8").cells[:, reflect_permutation(ELEMENTS["quad8"])]
     mesh = Mesh(m.mesh.nodes[:, ::-1].copy(), {"quad8": cells})
     X = mesh.nodes
     e = {"axis": edges_on(mesh, np.isclose(X[:, 0], 0.0)), "mid": edges_on(mesh, np.isclose(X[:, 1], 0.0)),

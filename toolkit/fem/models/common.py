@@ -27,7 +27,7 @@ from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
 
 __all__ = ["Curve", "line", "arc", "join", "uniform", "graded", "Block", "assemble", "boundary_edges",
-           "edges_on", "cell_edges_on", "Model", "QUAD_TYPES"]
+           "edges_on", "cell_edges_on", "reflect_permutation", "Model", "QUAD_TYPES"]
 
 QUAD_TYPES = ("quad4", "quad8", "quad9")
 
@@ -226,7 +226,7 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
         ax = {"x": 0, "y": 1}[mirror[0]]
         Xm = X.copy()
         Xm[:, ax] = 2 * mirror[1] - Xm[:, ax]
-        perm = _reflect_perm(et)
+        perm = reflect_permutation(et)
         C = np.concatenate([C, C[:, perm] + len(X)])
         R = np.concatenate([R, R])
         X = np.concatenate([X, Xm])
@@ -257,7 +257,7 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
     sets = {k: np.unique(new[v]) for k, v in sets.items()}
     if swap_xy:
         nodes = nodes[:, ::-1].copy()
-        C = C[:, _reflect_perm(et)]
+        C = C[:, reflect_permutation(et)]
     mesh = Mesh(nodes, {et.name: C}, regions={et.name: R})
     bnd = boundary_edges(mesh)
     edges = {k: edges_on(mesh, v, bnd) for k, v in sets.items() if k not in internal}
@@ -276,7 +276,7 @@ def assemble(blocks, etype="quad8", tol=1e-9, mirror=None, swap_xy=False, intern
     return mesh, edges, sets
 
 
-def _reflect_perm(et):
+def reflect_permutation(et):
     """Local node permutation that keeps a cell counter-clockwise after its
     nodes are mirrored: new node i takes old node perm[i], where the
     reference node of perm[i] is the mirror image (η -> -η) of node i's."""
