@@ -167,6 +167,70 @@ def test_hrz_lumping_positive_on_quad8():
     np.testing.assert_allclose(p.lumped_diagonal.sum(), 6.0)
 
 
+HRZ_SHARES = {
+    # type: (one cell's nodes, cell, corner share, mid-side share)
+    "quad8": ([[0, 0], [2, 0], [2, 3], [0, 3], [1, 0], [2, 1.5], [1, 3], [0, 1.5]], 4, 3 / 76, 16 / 76),
+    "tri6": ([[0, 0], [4, 0], [0, 3], [2, 0], [2, 1.5], [0, 1.5]], 3, 3 / 57, 16 / 57),
+}
+
+
+@pytest.mark.parametrize("name", sorted(HRZ_SHARES))
+def test_hrz_masses_are_the_published_shares(name):
+    """HRZ lumping (Hinton, Rock & Zienkiewicz 1976; also Cook, Malkus,
+    Plesha & Witt, Concepts and Applications of FEA, on diagonal scaling):
+    each nodal mass is the consistent mass matrix's diagonal term scaled so
+    that the masses sum to the element's area A.  Hand derivation on
+    straight-edged elements:
+
+    * quad8 on a rectangle: int N_corner^2 dA = 6A/180 = A/30 and
+      int N_midside^2 dA = 32A/180 = 8A/45; the trace is 4 A/30 + 4 8A/45 =
+      76A/90, so the shares are (A/30)/(76A/90) = 3/76 per corner and
+      (8A/45)/(76A/90) = 16/76 per mid-side node (4 x 3 + 4 x 16 = 76).
+    * tri6, with int L^n dA = 2A n!/(n+2)!: corner N = L(2L - 1),
+      int (4L^4 - 4L^3 + L^2) dA = (4/15 - 4/10 + 1/6) A = A/30; mid-side
+      N = 4 L1 L2, int 16 L1^2 L2^2 dA = 16 2A 2! 2!/6! = 8A/45; the trace
+      is 3 A/30 + 3 8A/45 = 57A/90, so 3/57 per corner and 16/57 per
+      mid-side node.
+
+    Separates HRZ from equal shares (A/8 resp. A/6 at every node).  Measured: quad8 (A = 6) corner
+    0.236842 = 6 x 3/76, mid-side 1.263158 = 6 x 16/76; with equal shares
+    0.75 at every node.  tri6 (A = 6) corner 0.315789 = 6 x 3/57, mid-side
+    1.684211 = 6 x 16/57; with equal shares 1.0 at every node."""
+    nodes, ncorner, corner, midside = HRZ_SHARES[name]
+    m = Mesh(np.array(nodes, float), {name: [list(range(len(nodes)))]})
+    area = 6.0
+    expected = area * np.array([corner] * ncorner + [midside] * (len(nodes) - ncorner))
+    p = L2Projector(m, lumped=True)
+    np.testing.assert_allclose(p.hrz_masses(name)[0], expected, rtol=1e-12)
+    np.testing.assert_allclose(p.lumped_diagonal, expected, rtol=1e-12)
+
+
+def test_lumped_projection_weights_cells_by_their_hrz_shares():
+    """Through the public call: a quad8 cell [0, 2] x [0, 1] carrying the
+    constant 1 beside a quad9 cell [2, 4] x [0, 1] carrying 3, one region.
+    The HRZ-lumped projection gives each node the mean of the cells'
+    values weighted by their HRZ masses there (module notes of
+    toolkit/recovery/projection.py).  Hand values: quad8 shares 3/76
+    (corner) and 16/76 (mid-side), see the test above; quad9 shares are
+    products of the 1D quadratic shares 1/6, 4/6, 1/6 (int l^2 over [-1, 1]
+    = 4/15, 16/15, 4/15): 1/36 corner, 4/36 mid-side, 16/36 centre (Hinton,
+    Rock & Zienkiewicz 1976 diagonal scaling, evaluated by hand).  Equal
+    areas, so the shared corner gets (3/76 + 3 x 1/36)/(3/76 + 1/36) =
+    42/23 = 1.826087 and the shared mid-side (16/76 + 3 x 4/36)/(16/76 +
+    4/36) = 93/55 = 1.690909.  Equal shares (1/8, 1/9) would give 33/17 =
+    1.941176 at both (measured with that planted: 1.941176 at both)."""
+    nodes = [[0, 0], [2, 0], [2, 1], [0, 1], [1, 0], [2, 0.5], [1, 1], [0, 0.5],
+             [4, 0], [4, 1], [3, 0], [4, 0.5], [3, 1], [3, 0.5]]
+    m = Mesh(np.array(nodes, float), {"quad8": [[0, 1, 2, 3, 4, 5, 6, 7]],
+                                      "quad9": [[1, 8, 9, 2, 10, 11, 12, 5, 13]]})
+    fld = GaussField(m, {"quad8": np.ones((1, 9, 1)), "quad9": 3 * np.ones((1, 9, 1))}, ("s",))
+    v = project_l2(fld, lumped=True).to_array()[:, 0]
+    np.testing.assert_allclose(v[[1, 2]], 42 / 23, rtol=1e-12)
+    np.testing.assert_allclose(v[5], 93 / 55, rtol=1e-12)
+    np.testing.assert_allclose(v[[0, 3, 4, 6, 7]], 1.0, rtol=1e-12)
+    np.testing.assert_allclose(v[8:], 3.0, rtol=1e-12)
+
+
 def test_reduced_rule_rhs_reproduces_linear_on_curved_jacobian():
     """Values at 2x2 on quad8 (and 3 points on tri6) with non-parallelogram
     elements still reproduce a linear field (local field integrated with a
