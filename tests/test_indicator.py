@@ -132,6 +132,25 @@ def test_hand_values_l2_and_energy():
     assert ax.error == pytest.approx(np.sqrt(4.25 * 8 * np.pi))
 
 
+def test_refinement_ratio_hand_value():
+    """ZZ 1987 equal-error criterion: the permissible error per element is
+    ē = η̄ sqrt((||σ_h||^2 + ||e||^2) / m) for a target η̄ and m elements, and
+    ξ_K = ||e||_K / ē (elements with ξ_K > 1 are refined).  One 2 x 2 square
+    (A = 4), σ* = (3, 1, 0.5) at the nodes, σ_h = (1, 1, 0), L2 norm, by hand:
+    ||e||^2 = (2^2 + 0 + 0.5^2) A = 17, ||σ_h||^2 = (1 + 1) A = 8, so
+    sqrt(||σ_h||^2 + ||e||^2) = 5, η = sqrt(17)/5 = 0.824621 and with η̄ = 0.2
+    ē = 1, ξ = sqrt(17) = 4.123106.  Separates the published denominator from
+    one that drops ||e||^2 (ē = 0.2 sqrt(8), ξ = 7.288690; measured with that
+    planted: 7.288690 against 4.123106)."""
+    fld, nf = _one_square([3.0, 1.0, 0.5], [1.0, 1.0, 0.0])
+    ind = error_indicator(fld, nf)
+    assert ind.error == pytest.approx(np.sqrt(17.0), rel=1e-12)
+    assert ind.norm == pytest.approx(np.sqrt(8.0), rel=1e-12)
+    assert ind.eta == pytest.approx(np.sqrt(17.0) / 5.0, rel=1e-12)
+    np.testing.assert_allclose(ind.refinement_ratio(0.2), [np.sqrt(17.0)], rtol=1e-12)
+    np.testing.assert_allclose(ind.refinement_ratio(0.5), [np.sqrt(17.0) / 2.5], rtol=1e-12)
+
+
 def test_compliance_is_inverse_of_hooke():
     """σ^T C σ with tensor shears equals σ . D^-1 σ with engineering shear
     strain, so C = inv(D) for plane stress, plane strain and 3D (Hooke's
