@@ -95,6 +95,32 @@ def test_type_b_in_metres():
     assert np.isclose(res.value, 90.0)
 
 
+def test_type_b_in_inches():
+    """Type "b" read-outs are fixed lengths, 4, 8, 12 mm (fine) and 5, 15 mm
+    (coarse) from the toe (IIW recommendations, Hobbacher 2016, type "b"
+    hot spot), so a model in inches reads out at 4/25.4 in etc. (1 in =
+    25.4 mm exactly, international inch of 1959).  A linear field cannot show
+    a wrong conversion (every rule reproduces it wherever it reads out), so
+    the field here is curved: σ(x) = 200 - 1000 x^2 MPa with x in inches.
+    Linear extrapolation from x1, x2 gives σ(0) - c x1 x2 for σ = σ(0) + c x^2
+    (closed form), i.e. 200 + 1000 (5/25.4)(15/25.4) = 316.2502 MPa; the
+    quadratic fine rule reproduces a quadratic, and for σ = 90 + 50 x^3 gives
+    90 + 50 x1 x2 x3 = 90 + 50 (4 8 12)/25.4^3 = 91.17166 MPa.  The same
+    physical field in a millimetre model gives the same hot-spot stress.
+    Separates 25.4 from 25.0 mm per inch (measured with 25.0 planted: 320.0
+    against 316.2502 MPa coarse, 91.2288 against 91.17166 MPa fine; the
+    distances differ by 1.6 %)."""
+    inch = 25.4
+    fine = hot_spot_stress(lambda x: 90.0 + 50.0 * x**3, rule="b-fine", unit="in")
+    np.testing.assert_allclose(fine.readouts["distances"], np.array([4.0, 8.0, 12.0]) / inch, rtol=1e-12)
+    assert fine.value == pytest.approx(90.0 + 50.0 * 384.0 / inch**3, rel=1e-12)
+    coarse = hot_spot_stress(lambda x: 200.0 - 1000.0 * x**2, rule="b-coarse", unit="in")
+    np.testing.assert_allclose(coarse.readouts["distances"], np.array([5.0, 15.0]) / inch, rtol=1e-12)
+    assert coarse.value == pytest.approx(200.0 + 1000.0 * 75.0 / inch**2, rel=1e-12)
+    in_mm = hot_spot_stress(lambda y: 200.0 - 1000.0 * (y / inch) ** 2, rule="b-coarse", unit="mm")
+    assert coarse.value == pytest.approx(in_mm.value, rel=1e-12)
+
+
 def test_element_size_warnings(capsys):
     t = 10.0
     f = lambda x: 100.0 + x  # noqa: E731
