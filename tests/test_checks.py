@@ -4,7 +4,9 @@ Source: IIW recommendations (A. Hobbacher (ed.), Recommendations for Fatigue Des
 Welded Joints and Components, IIW document XIII-2460-13, 2nd edition 2016):
 N = 2e6 (FAT/ds)^m, m = 3 and knee at 1e7 cycles for normal stress, m = 5 and knee at
 1e8 for shear, m2 = 22 beyond the knee for variable amplitude; f(t) = (25/t_eff)^n.
-Expected numbers below are worked out by hand from these formulas.
+Expected numbers below are worked out by hand from these formulas.  The values
+data/SOURCES.md lists as from memory (m2 = 22, the thickness exponents, D = 0.5) are
+checked by behaviour and against the data file, not restated.
 """
 import json
 import math
@@ -37,8 +39,14 @@ def test_life_at_and_around_the_knee(fat):
     assert np.isclose(ca.life(sk), 1e7)
     assert np.isclose(ca.life(1.1 * sk), 1e7 / 1.1**3)
     assert ca.life(0.99 * sk) == math.inf  # constant amplitude: no damage below the knee stress
-    assert np.isclose(va.life(0.9 * sk), 1e7 * (1 / 0.9) ** 22)  # IIW 2016 m2 = 22
-    assert np.isclose(old.life(0.9 * sk), 1e7 * (1 / 0.9) ** 5)  # older practice m2 = 5
+    # beyond the knee (m2 = 22 for IIW 2016, from memory: see data/SOURCES.md), checked by behaviour and
+    # against the data file rather than by restating the number: the variable-amplitude branch is
+    # continuous at the knee, finite below it, and flatter than the older m2 = 2 m1 - 1 = 5 branch
+    m2 = load_sn_data()["families"]["normal"]["m2"]["variable"]
+    assert np.isclose(va.life(0.9 * sk), 1e7 * (1 / 0.9) ** m2)
+    assert np.isclose(va.life(sk * (1 - 1e-9)), 1e7, rtol=1e-6) and math.isfinite(va.life(0.5 * sk))
+    assert va.life(0.9 * sk) > old.life(0.9 * sk) > 1e7 / 0.9**3
+    assert np.isclose(old.life(0.9 * sk), 1e7 * (1 / 0.9) ** 5)  # Haibach's m2 = 2 m1 - 1 = 5
     assert np.isclose(va.life(1.1 * sk), ca.life(1.1 * sk))  # identical above the knee
     assert np.isclose(va.strength(va.life(0.8 * sk)), 0.8 * sk)
     assert np.isclose(ca.strength(1e9), sk)
@@ -58,7 +66,12 @@ def test_shear_curve():
     assert np.isclose(c.life(80.0), 2e6 * 1.25**5)  # m = 5
     sk = 100 * (2e6 / 1e8) ** 0.2  # knee at 1e8 cycles
     assert np.isclose(c.knee_stress, sk) and np.isclose(c.life(sk), 1e8)
-    assert np.isclose(c.life(0.5 * sk), 1e8 * 2.0**22)
+    # the shear m2 (22 in the data file) is from memory (data/SOURCES.md): behaviour only --
+    # continuous at the knee, finite below it, flatter than the m1 = 5 line, and the file's value used
+    m2 = load_sn_data()["families"]["shear"]["m2"]["variable"]
+    assert np.isclose(c.life(sk * (1 - 1e-9)), 1e8, rtol=1e-6)
+    assert math.isfinite(c.life(0.5 * sk)) and c.life(0.5 * sk) > 1e8 * 2.0**5
+    assert np.isclose(c.life(0.5 * sk), 1e8 * 2.0**m2)
 
 
 def test_user_curve_and_bad_curves():
@@ -79,11 +92,20 @@ def test_user_curve_and_bad_curves():
 
 
 def test_thickness_correction():
-    # IIW: f(t) = (25/t)^n for t > 25 mm
-    assert np.isclose(thickness_factor(50, joint="cruciform-as-welded"), 0.5**0.3)
-    assert np.isclose(thickness_factor(50, joint="cruciform-toe-ground"), 0.5**0.2)
-    assert np.isclose(thickness_factor(40, joint="butt-ground-flush"), (25 / 40) ** 0.1)
-    assert thickness_factor(20, joint="cruciform-as-welded") == 1.0
+    # IIW: f(t) = (25/t)^n for t > 25 mm.  The exponents per joint category are from memory (see
+    # data/SOURCES.md), so the categories are checked by behaviour: each uses the law with its own
+    # table exponent, the factor falls with t and is 1 up to 25 mm, and the categories are ordered by
+    # severity (as-welded cruciform/T-joints the strongest reduction, ground-flush butt welds the least;
+    # grinding the toe never increases the reduction).
+    from toolkit.assess.checks import THICKNESS_EXPONENTS
+    for joint, (n, _) in THICKNESS_EXPONENTS.items():
+        assert 0 < n < 1
+        assert np.isclose(thickness_factor(50, joint=joint), 0.5**n)
+        f = [thickness_factor(t, joint=joint) for t in (10, 25, 30, 50, 100)]
+        assert f[:2] == [1.0, 1.0] and np.all(np.diff(f[1:]) < 0)
+    f = {j: thickness_factor(50, joint=j) for j in THICKNESS_EXPONENTS}
+    assert f["cruciform-as-welded"] < f["cruciform-toe-ground"] < f["butt-ground-flush"]
+    assert f["cruciform-as-welded"] <= f["butt-as-welded"] < f["butt-ground-flush"]
     assert thickness_factor(25, n=0.3) == 1.0
     # toe distance L with L/t <= 2: t_eff = 0.5 L
     assert np.isclose(thickness_factor(60, n=0.3, toe_distance=80), (25 / 40) ** 0.3)

@@ -23,6 +23,7 @@ __all__ = [
     "linearize", "Linearization", "hot_spot_concentration",
 ]
 
+# millimetres per model length unit; 1 in = 25.4 mm exactly (international inch, 1959)
 _MM = {"mm": 1.0, "cm": 10.0, "m": 1000.0, "in": 25.4}
 
 
