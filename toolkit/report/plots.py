@@ -8,6 +8,8 @@ differences).
 """
 from __future__ import annotations
 
+from typing import NamedTuple
+
 import numpy as np
 
 from toolkit.errors import InputError
@@ -15,7 +17,8 @@ from toolkit.core.elements import get_element, local_field_matrix
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
 
-__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "plot_indicator"]
+__all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "plot_indicator",
+           "ContourData", "nodal_contour_data", "raw_contour_data", "contour_levels", "raw_nodal_values"]
 
 
 def _axes(ax):
@@ -56,43 +59,68 @@ def plot_mesh(mesh: Mesh, ax=None, color="0.35", linewidth=0.4, label_regions=Fa
     return ax
 
 
-def _triangulation(xy, cell_rows_by_block):
-    import matplotlib.tri as mtri
+class ContourData(NamedTuple):
+    """The triangulated data a contour plot draws: point coordinates ``xy``
+    (p, 2), sub-triangles ``triangles`` (t, 3) indexing ``xy``, and the value
+    ``z`` (p,) at each point."""
 
+    xy: np.ndarray
+    triangles: np.ndarray
+    z: np.ndarray
+
+
+def _triangles(cell_rows_by_block):
+    """Each cell's declared drawing sub-triangles, as rows of point indices."""
     tris = []
     for name, rows in cell_rows_by_block.items():
         for t in get_element(name).plot_triangles:     # the type's declared drawing sub-triangles
             tris.append(rows[:, list(t)])
-    return mtri.Triangulation(xy[:, 0], xy[:, 1], np.concatenate(tris))
+    return np.concatenate(tris)
 
 
-def _draw(ax, tri, z, levels, cmap, label, vmin=None, vmax=None):
-    import matplotlib.pyplot as plt
-
+def contour_levels(z, levels, vmin=None, vmax=None) -> np.ndarray:
+    """The ``levels`` equally spaced contour levels from ``vmin`` to ``vmax``
+    (default: the smallest and largest finite ``z``) that :func:`contour_nodal`
+    and :func:`contour_raw` fill between."""
     vmin = np.nanmin(z) if vmin is None else vmin
     vmax = np.nanmax(z) if vmax is None else vmax
     if vmax <= vmin:
         vmax = vmin + max(abs(vmin), 1.0) * 1e-9
-    lv = np.linspace(vmin, vmax, levels)
-    cs = ax.tricontourf(tri, z, levels=lv, cmap=cmap, extend="neither")
+    return np.linspace(vmin, vmax, levels)
+
+
+def _draw(ax, data: ContourData, levels, cmap, label, vmin=None, vmax=None):
+    import matplotlib.pyplot as plt
+    import matplotlib.tri as mtri
+
+    tri = mtri.Triangulation(data.xy[:, 0], data.xy[:, 1], data.triangles)
+    lv = contour_levels(data.z, levels, vmin, vmax)
+    cs = ax.tricontourf(tri, data.z, levels=lv, cmap=cmap, extend="neither")
     ax.set_aspect("equal")
     plt.colorbar(cs, ax=ax, label=label, shrink=0.85)
     return cs
+
+
+def nodal_contour_data(nodal: NodalField, component) -> ContourData:
+    """What :func:`contour_nodal` draws: the nodal values of ``component`` at
+    the nodes' coordinates, triangulated cell by cell (a node carrying one
+    value per region appears once per region)."""
+    mesh = nodal.mesh
+    _need_2d(mesh)
+    z = nodal.values[:, nodal.components.index(component)]
+    rows = {b.name: nodal.cell_rows(b.name) for b in mesh.blocks}
+    return ContourData(mesh.nodes[nodal.node], _triangles(rows), z)
 
 
 def contour_nodal(nodal: NodalField, component, ax=None, levels=21, cmap="viridis", mesh_lines=False,
                   vmin=None, vmax=None, title=None):
     """Filled contours of a smoothed nodal field (region splits respected:
     each region is drawn from its own values)."""
-    mesh = nodal.mesh
-    _need_2d(mesh)
+    data = nodal_contour_data(nodal, component)
     ax = _axes(ax)
-    z = nodal.values[:, nodal.components.index(component)]
-    xy = mesh.nodes[nodal.node]
-    rows = {b.name: nodal.cell_rows(b.name) for b in mesh.blocks}
-    _draw(ax, _triangulation(xy, rows), z, levels, cmap, component, vmin, vmax)
+    _draw(ax, data, levels, cmap, component, vmin, vmax)
     if mesh_lines:
-        plot_mesh(mesh, ax, linewidth=0.2)
+        plot_mesh(nodal.mesh, ax, linewidth=0.2)
     ax.set_title(title or f"{component}, {nodal.method or 'nodal'}")
     return ax
 
@@ -108,13 +136,12 @@ def raw_nodal_values(field: GaussField, component):
     return out
 
 
-def contour_raw(field: GaussField, component, ax=None, levels=21, cmap="viridis", vmin=None, vmax=None,
-                title=None):
-    """Filled contours of the raw field: every cell drawn from its own
-    integration-point values, so the jumps between cells stay visible."""
+def raw_contour_data(field: GaussField, component) -> ContourData:
+    """What :func:`contour_raw` draws: every cell's own local field at its own
+    nodes (:func:`raw_nodal_values`), each cell with its own copy of its node
+    coordinates, so the values jump between cells."""
     mesh = field.mesh
     _need_2d(mesh)
-    ax = _axes(ax)
     vals = raw_nodal_values(field, component)
     xy, z, rows, start = [], [], {}, 0
     for b in mesh.blocks:
@@ -123,7 +150,16 @@ def contour_raw(field: GaussField, component, ax=None, levels=21, cmap="viridis"
         z.append(vals[b.name].ravel())
         rows[b.name] = start + np.arange(m * k).reshape(m, k)
         start += m * k
-    _draw(ax, _triangulation(np.concatenate(xy), rows), np.concatenate(z), levels, cmap, component, vmin, vmax)
+    return ContourData(np.concatenate(xy), _triangles(rows), np.concatenate(z))
+
+
+def contour_raw(field: GaussField, component, ax=None, levels=21, cmap="viridis", vmin=None, vmax=None,
+                title=None):
+    """Filled contours of the raw field: every cell drawn from its own
+    integration-point values, so the jumps between cells stay visible."""
+    data = raw_contour_data(field, component)
+    ax = _axes(ax)
+    _draw(ax, data, levels, cmap, component, vmin, vmax)
     ax.set_title(title or f"{component}, raw (cell by cell)")
     return ax
 

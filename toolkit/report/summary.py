@@ -10,7 +10,8 @@ A workbook records its results in its own cells::
     report.save()
 
 ``save()`` displays the summary as a table (``text/plain`` and ``text/html``,
-formatted to 6 significant digits) and embeds the exact data in that output's
+formatted to 6 significant digits, or the ``digits`` a value was recorded
+with) and embeds the exact data in that output's
 *metadata* under the key ``"stresspath"``; ``toolkit.workbook.render``
 extracts it from the executed notebook (:func:`read_summary`) and writes
 ``summary.json``.  This needs no file and no agreed working directory, it
@@ -75,9 +76,15 @@ class Summary:
         self.parameters = None if parameters is None else _finite_plain(dict(parameters), "Summary parameters")
         self.values = {}
         self.checks = []
+        self._digits = {}
 
-    def value(self, name, value, unit, note=None):
-        """Record one result: a finite number, a bool or a string, with its unit ("-" if none)."""
+    def value(self, name, value, unit, note=None, digits=6):
+        """Record one result: a finite number, a bool or a string, with its unit ("-" if none).
+
+        ``digits``: significant figures of the displayed table only (the
+        record keeps the full value); give 4 for a number whose later digits
+        depend on solver round-off, such as a GCI.
+        """
         name = str(name)
         if name in self.values:
             raise InputError(f"summary value {name!r} recorded twice (re-run from the Summary() cell)")
@@ -90,10 +97,12 @@ class Summary:
         if note is not None:
             entry["note"] = str(note)
         self.values[name] = entry
+        self._digits[name] = int(digits)
 
-    def check(self, result):
+    def check(self, result, digits=6):
         """Record one check: an object with ``to_dict()`` (e.g. a CheckResult) or a dict
-        with at least name, value, limit, utilization and status ("PASS"/"FAIL")."""
+        with at least name, value, limit, utilization and status ("PASS"/"FAIL").
+        ``digits``: significant figures of the displayed value and limit only."""
         d = result.to_dict() if hasattr(result, "to_dict") else result
         if not isinstance(d, dict):
             raise InputError(f"summary check: expected a dict or an object with to_dict(), got {type(result).__name__}")
@@ -115,6 +124,7 @@ class Summary:
         if any(c["name"] == entry["name"] for c in self.checks):
             raise InputError(f"summary check {entry['name']!r} recorded twice (re-run from the Summary() cell)")
         self.checks.append(entry)
+        self._digits[("check", entry["name"])] = int(digits)
 
     def to_dict(self) -> dict:
         d = {"values": copy.deepcopy(self.values), "checks": copy.deepcopy(self.checks)}
@@ -126,10 +136,12 @@ class Summary:
         rows = []
         for name, e in self.values.items():
             unit = "" if e["unit"] in ("", "-") else f" {e['unit']}"
-            rows.append(("value", name, f"{fmt(e['value'], 6)}{unit}", e.get("note", "")))
+            d = self._digits.get(name, 6)
+            rows.append(("value", name, f"{fmt(e['value'], d)}{unit}", e.get("note", "")))
         for c in self.checks:
             unit = "" if c.get("unit", "-") in ("", "-") else f" {c['unit']}"
-            rows.append(("check", c["name"], f"{fmt(c['value'], 6)}{unit} / {fmt(c['limit'], 6)}{unit}",
+            d = self._digits.get(("check", c["name"]), 6)
+            rows.append(("check", c["name"], f"{fmt(c['value'], d)}{unit} / {fmt(c['limit'], d)}{unit}",
                          f"utilization {c['utilization']:.3f}  {c['status']}"))
         return rows
 

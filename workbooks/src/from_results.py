@@ -252,15 +252,20 @@ fatigue
 
 # %%
 summary = Summary(parameters=params)
-summary.value("peak_stress", peak_vm, "MPa", note="largest nodal von Mises stress, L2 projection")
-summary.value("hot_spot_stress", hs_lin.value, "MPa", note="IIW type a, linear surface extrapolation")
-summary.value("hot_spot_stress_quadratic", hs_quad.value, "MPa", note="IIW type a, quadratic")
-summary.value("membrane_stress", lin.membrane, "MPa", note="through-thickness linearisation at the toe")
-summary.value("bending_stress", lin.bending, "MPa", note="through-thickness linearisation at the toe")
+summary.value("peak_stress", peak_vm, "MPa", note="largest nodal von Mises stress, L2 projection",
+              digits=4)
+summary.value("hot_spot_stress", hs_lin.value, "MPa", note="IIW type a, linear surface extrapolation",
+              digits=4)
+summary.value("hot_spot_stress_quadratic", hs_quad.value, "MPa", note="IIW type a, quadratic", digits=4)
+summary.value("membrane_stress", lin.membrane, "MPa", note="through-thickness linearisation at the toe",
+              digits=4)
+summary.value("bending_stress", lin.bending, "MPa", note="through-thickness linearisation at the toe",
+              digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
-summary.value("utilization", max(static.utilization, fatigue.utilization), "1", note="largest of the checks")
-summary.check(static)
-summary.check(fatigue)
+summary.value("utilization", max(static.utilization, fatigue.utilization), "1", note="largest of the checks",
+              digits=4)
+summary.check(static, digits=4)
+summary.check(fatigue, digits=4)
 summary.save()
 
 # %%

@@ -107,7 +107,7 @@ rows.append(["Kirsch (1898), infinite plate", kirsch_kt() * gross, kirsch_kt() *
 kt_net = nodal.component("sxx")[peak_node] / net
 kt_gross = nodal.component("sxx")[peak_node] / gross
 print(f"d/W = {d_over_w:.3g}; nominal stress gross {gross:.4g} MPa, net {net:.4g} MPa")
-print(f"Kt,net = {kt_net:.4f} (Heywood {heywood_kt_net(d_over_w):.4f}, "
+print(f"Kt,net = {kt_net:.4g} (Heywood {heywood_kt_net(d_over_w):.4f}, "
       f"difference {kt_net / heywood_kt_net(d_over_w) - 1:+.2%})")
 report.Table(rows, ["source", "peak sxx (MPa)", "Kt net", "Kt gross"], title="Peak stress at the hole")
 
@@ -199,15 +199,16 @@ static
 
 # %%
 summary = Summary(parameters=params)
-summary.value("kt_net", kt_net, "1", note="peak sxx / net-section stress, L2 projection")
-summary.value("kt_gross", kt_gross, "1", note="peak sxx / gross stress, L2 projection")
+summary.value("kt_net", kt_net, "1", note="peak sxx / net-section stress, L2 projection", digits=4)
+summary.value("kt_gross", kt_gross, "1", note="peak sxx / gross stress, L2 projection", digits=4)
 summary.value("kt_net_heywood", heywood_kt_net(d_over_w), "1", note="Heywood (1952)")
-summary.value("peak_stress", float(nodal.component("sxx")[peak_node]), "MPa", note="sxx at the hole edge")
-summary.value("peak_von_mises", peak_vm, "MPa")
-summary.value("peak_extrapolated", conv.extrapolated, "MPa", note="Richardson extrapolation")
-summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh")
+summary.value("peak_stress", float(nodal.component("sxx")[peak_node]), "MPa", note="sxx at the hole edge",
+              digits=4)
+summary.value("peak_von_mises", peak_vm, "MPa", digits=4)
+summary.value("peak_extrapolated", conv.extrapolated, "MPa", note="Richardson extrapolation", digits=4)
+summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh", digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
-summary.check(static)
+summary.check(static, digits=4)
 summary.save()
 
 # %%

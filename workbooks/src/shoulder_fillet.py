@@ -139,7 +139,7 @@ for name, nf in recovered.items():
     rows.append([name, v, v / model.nominal["nominal"]])
 try:
     kt_fit = fillet_kt(shape, load, large_width, small_width, fillet_radius)
-    fit_note = f"handbook fit: Kt = {kt_fit:.4f}; this model {kt:.4f} ({kt / kt_fit - 1:+.2%})"
+    fit_note = f"handbook fit: Kt = {kt_fit:.4f}; this model {kt:.4g} ({kt / kt_fit - 1:+.2%})"
 except ValueError as e:
     kt_fit = float("nan")
     fit_note = f"handbook fit not applicable: {e}"
@@ -207,16 +207,16 @@ static
 
 # %%
 summary = Summary(parameters=params)
-summary.value("kt", kt, "1", note="peak fillet stress / nominal, L2 projection")
+summary.value("kt", kt, "1", note="peak fillet stress / nominal, L2 projection", digits=4)
 summary.value("kt_handbook", kt_fit, "1", note="Pilkey & Pilkey fit (NaN outside its range)")
-summary.value("peak_stress", peak, "MPa", note="largest stress along the fillet surface")
-summary.value("peak_location_x", float(where[0]), "mm")
-summary.value("peak_location_y", float(where[1]), "mm")
-summary.value("kf", kf, "1", note="fatigue notch factor, Peterson q")
-summary.value("peak_von_mises", peak_vm, "MPa")
-summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh")
+summary.value("peak_stress", peak, "MPa", note="largest stress along the fillet surface", digits=4)
+summary.value("peak_location_x", float(where[0]), "mm", digits=4)
+summary.value("peak_location_y", float(where[1]), "mm", digits=4)
+summary.value("kf", kf, "1", note="fatigue notch factor, Peterson q", digits=4)
+summary.value("peak_von_mises", peak_vm, "MPa", digits=4)
+summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh", digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
-summary.check(static)
+summary.check(static, digits=4)
 summary.save()
 
 # %%

@@ -265,19 +265,24 @@ checks[0]
 
 # %%
 summary = Summary(parameters=params)
-summary.value("hot_spot_stress", hs_lin.value, "MPa", note="IIW type a, linear surface extrapolation, L2")
-summary.value("hot_spot_stress_quadratic", hs_quad.value, "MPa", note="IIW type a, quadratic, L2")
-summary.value("membrane_stress", lin.membrane, "MPa", note="through-thickness linearisation at the toe")
-summary.value("bending_stress", lin.bending, "MPa", note="through-thickness linearisation, toe surface")
-summary.value("hot_spot_scf", hs_lin.value / nominal, "1", note="hot-spot / nominal (membrane + bending)")
+summary.value("hot_spot_stress", hs_lin.value, "MPa", note="IIW type a, linear surface extrapolation, L2",
+              digits=4)
+summary.value("hot_spot_stress_quadratic", hs_quad.value, "MPa", note="IIW type a, quadratic, L2", digits=4)
+summary.value("membrane_stress", lin.membrane, "MPa", note="through-thickness linearisation at the toe",
+              digits=4)
+summary.value("bending_stress", lin.bending, "MPa", note="through-thickness linearisation, toe surface",
+              digits=4)
+summary.value("hot_spot_scf", hs_lin.value / nominal, "1", note="hot-spot / nominal (membrane + bending)",
+              digits=4)
 summary.value("thickness_factor", f_t, "1")
-summary.value("gci_fine", conv.gci_fine, "1", note="hot-spot stress, Roache's GCI")
+summary.value("gci_fine", conv.gci_fine, "1", note="hot-spot stress, Roache's GCI", digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
 if notch is not None:
-    summary.value("effective_notch_stress", notch, "MPa")
-summary.value("utilization", max(c.utilization for c in checks), "1", note="largest of the checks")
+    summary.value("effective_notch_stress", notch, "MPa", digits=4)
+summary.value("utilization", max(c.utilization for c in checks), "1", note="largest of the checks",
+              digits=4)
 for c in checks:
-    summary.check(c)
+    summary.check(c, digits=4)
 summary.save()
 
 # %%
