@@ -30,29 +30,48 @@ def nodal_max_on(model, nf, comp, edge):
 # Plate with a hole
 # ---------------------------------------------------------------------------
 def test_kirsch_infinite_plate():
-    """Kirsch (1898), Timoshenko & Goodier §35: Kt = 3 and the ligament
-    stress σxx(0, y)/σ = 1 + (a/y)²/2 + 3 (a/y)⁴/2, for W/d = 10."""
+    """Plate with W/d = 10: the peak against the finite-width value, and the
+    ligament stress against Kirsch (1898), Timoshenko & Goodier §35,
+    σxx(0, y)/σ = 1 + (a/y)²/2 + 3 (a/y)⁴/2.
+
+    The peak over the gross stress is Kt,gross = Kt,net W/(W - d) with
+    Heywood's Kt,net (source in test_heywood_finite_width): 3.032 at
+    d/W = 0.1, not Kirsch's 3.  Measured Kt,gross/3.032 - 1: L2 projection
+    +0.31 % (h = d/20; +0.14 % converged at d/80), nodal averaging +0.32 %,
+    SPR +0.58 %; wrong: raw Gauss-point maximum -2.18 %, the infinite-plate
+    value 3 (FE/3 - 1 = +1.39 %).  Tolerance 0.7 %."""
     d, a = 10.0, 5.0
     m = plate_with_hole(width=10 * d, length=20 * d, hole_diameter=d, element_size=d / 20)
     s, nf = solved(m)
     sxx = nf.component("sxx")
-    assert sxx[m.points["peak"]] / m.nominal["gross"] == pytest.approx(3.0, rel=0.02)
+    kt_gross = heywood_kt_net(0.1) / (1 - 0.1)
+    assert sxx[m.points["peak"]] / m.nominal["gross"] == pytest.approx(kt_gross, rel=0.007)
     lig = np.unique(m.edges["ligament"])
     y = m.mesh.nodes[lig, 1]
     kirsch = 1 + 0.5 * (a / y) ** 2 + 1.5 * (a / y) ** 4
     assert np.abs(sxx[lig] / kirsch - 1).max() <= 0.03
 
 
+# FE/Heywood - 1 per d/W, measured (L2 projection, h = d/20): +0.28, +0.55,
+# +0.98, +1.65, +2.49 %.  The FE's own error is about +0.15 % (at d/80 the
+# ratio is +0.14, +0.83, +2.32 % at d/W = 0.1, 0.3, 0.5): the growth is the
+# deviation of Heywood's formula itself.  A wrong exponent 2.5,
+# 2 + (1 - d/W)^2.5, gives FE/fit - 1 = -1.15, -1.81, -1.82, -1.15, +0.05 %,
+# i.e. 1.4 to 2.8 % away from the measured ratio at every d/W, so the band is
+# the measured ratio +-0.5 %.
+HEYWOOD_FE_RATIO = {0.1: 0.0028, 0.2: 0.0055, 0.3: 0.0098, 0.4: 0.0165, 0.5: 0.0249}
+
+
 @pytest.mark.parametrize("d_over_w", [0.1, 0.2, 0.3, 0.4, 0.5])
 def test_heywood_finite_width(d_over_w):
     """Heywood (1952), quoted in Pilkey & Pilkey, Peterson's SCF 3rd ed.
-    §4.3 (from memory): Kt_net = 2 + (1 - d/W)³."""
+    §4.3 (from memory): Kt_net = 2 + (1 - d/W)³; measured offsets above."""
     d = 10.0
     W = d / d_over_w
     m = plate_with_hole(width=W, length=max(4 * W, 20 * d), hole_diameter=d, element_size=d / 20)
     _, nf = solved(m)
     kt_net = nf.component("sxx")[m.points["peak"]] / m.nominal["net"]
-    assert kt_net == pytest.approx(heywood_kt_net(d_over_w), rel=0.03)
+    assert kt_net / heywood_kt_net(d_over_w) - 1 == pytest.approx(HEYWOOD_FE_RATIO[d_over_w], abs=0.005)
     assert m.nominal["net"] == pytest.approx(m.nominal["gross"] * W / (W - d), rel=1e-12)
 
 
@@ -103,12 +122,16 @@ CARVILL_BENDING = [(1.2, 0.10, 1.70), (1.5, 0.06, 2.08), (1.5, 0.20, 1.48), (2.0
                          + [("bending",) + p for p in CARVILL_BENDING])
 def test_flat_shoulder_fillet_kt_against_carvill_table(load, D_d, r_d, K):
     """FE peak on the fillet over the small section's nominal stress against
-    Carvill's tabulated K (source above), within 5 %."""
+    Carvill's tabulated K (source above), within 4 %.  Measured FE/K - 1
+    (L2 projection, default mesh): -3.9 % (tension D/d = 2, r/d = 0.1) to
+    +3.1 % (bending D/d = 1.5, r/d = 0.2); wrong: the raw Gauss-point maximum
+    lies more than 4 % (up to 7.2 %) below K on eight of the fifteen rows (e.g. -7.2 % tension D/d = 2,
+    r/d = 0.06; -7.1 % bending D/d = 3, r/d = 0.1), so 4 % rejects it."""
     d = 10.0
     m = shoulder_fillet("flat", D_d * d, d, r_d * d, load=load)
     _, nf = solved(m)
     kt = nodal_max_on(m, nf, "sxx", "fillet") / m.nominal["nominal"]
-    assert kt == pytest.approx(K, rel=0.05)
+    assert kt == pytest.approx(K, rel=0.04)
 
 
 @pytest.mark.parametrize("shape,load", [("flat", "tension"), ("flat", "bending"), ("shaft", "tension")])
@@ -145,14 +168,14 @@ def test_shoulder_fillet_tension_kt(shape, D_d, r_d):
 
 def test_shoulder_fillet_bending_balanced():
     """Flat bar in pure bending: the self-balanced end moments leave no
-    reaction (statics), the peak sits on the fillet and exceeds the nominal
-    bending stress, and the small-part surface far from the step carries
-    σ = 6M/(t d²) (beam theory)."""
+    reaction (statics) and the small-part surface far from the step carries
+    σ = 6M/(t d²) (beam theory).  The fillet peak of this geometry (D/d = 2,
+    r/d = 0.2) is checked against Carvill's table in
+    test_flat_shoulder_fillet_kt_against_carvill_table (FE +1.75 %)."""
     m = shoulder_fillet("flat", 20.0, 10.0, 2.0, load="bending")
     s, nf = solved(m)
     np.testing.assert_allclose(s.reactions.sum(axis=0), 0.0, atol=1e-8)
     sxx = nf.component("sxx")
-    assert nodal_max_on(m, nf, "sxx", "fillet") > 1.2 * m.nominal["nominal"]
     surf = np.unique(m.edges["small_surface"])
     X = m.mesh.nodes[surf]
     far = surf[(X[:, 1] > 0) & (np.abs(X[:, 0] - 0.6 * m.geometry["small_length"]) < 2.0)]
@@ -196,22 +219,35 @@ def test_cruciform_no_net_bending_under_membrane():
     _, nf = solved(m)
     M = edge_integral(m.mesh, m.edges["toe_section"], nf.component("sxx"), weight=lambda x: x[..., 1])
     assert abs(M) <= 1e-6 * (1.0 * t ** 2 / 6)
-    # the one-sided T joint does bend the section (the attachment stiffens one face)
+    # the one-sided T joint: the free body from the toe section to the loaded
+    # end carries only the uniform end traction, so the section moment about
+    # the mid-plane is zero as well (statics), although the stress across it
+    # is not symmetric.  Measured |M1| (L2 projection) / (σ t²/6): 1.34 % at
+    # h = 0.5, then 1.01, 0.60, 0.37 % at h = 0.25, 0.125, 0.0625 (the sharp
+    # toe's slow convergence, see above); nodal averaging 1.43 %.  Wrong: a
+    # moment taken about the loaded face instead of the mid-plane is
+    # F t/2 = 300 % of σ t²/6.  Tolerance 2 %.
     m1 = weld_toe(t, 10.0, 8.0, sides=1, element_size=0.5)
     _, nf1 = solved(m1)
     M1 = edge_integral(m1.mesh, m1.edges["toe_section"], nf1.component("sxx"), weight=lambda x: x[..., 1])
-    assert abs(M1) > 1e-3 * (t ** 2 / 6)
+    assert abs(M1) <= 0.02 * (1.0 * t ** 2 / 6)
 
 
 def test_notch_peak_rises_as_toe_radius_shrinks():
-    """Smaller toe radius, sharper notch, higher peak (Neuber; common practice)."""
+    """Smaller toe radius, sharper notch, higher peak (Neuber; common practice).
+    The peak at ρ = 0.5 (default mesh h = ρ/4) against a converged value of
+    our own solver (no published one at hand): 2.8585, the Richardson limit
+    of the L2 peaks 2.8762, 2.8629, 2.8596 at h = ρ/8, ρ/16, ρ/32 (nodal
+    averaging and SPR agree to 0.1 % at ρ/32).  Measured at the default mesh:
+    L2 projection +1.4 %, nodal averaging +0.9 %; wrong: raw Gauss-point
+    maximum -5.3 %, SPR (not yet converged there) -4.6 %.  Tolerance 2.5 %."""
     peaks = []
     for rho in (4.0, 2.0, 1.0, 0.5):
         m = weld_toe(10.0, 10.0, 8.0, sides=2, toe_radius=rho)
         _, nf = solved(m)
         peaks.append(nodal_max_on(m, nf, "sxx", "plate_surface"))
     assert np.all(np.diff(peaks) > 0), peaks
-    assert peaks[-1] > 1.5                       # a real notch: well above the membrane stress
+    assert peaks[-1] == pytest.approx(2.8585, rel=0.025)
 
 
 # ---------------------------------------------------------------------------
