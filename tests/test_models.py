@@ -163,6 +163,10 @@ def test_shoulder_fillet_tension_kt(shape, D_d, r_d):
     comp = "sxx" if shape == "flat" else "szz"
     kt = nodal_max_on(m, nf, comp, "fillet") / m.nominal["nominal"]
     assert 0.1 <= m.geometry["h_over_r"] <= 20           # the fits' stated range
+    # 5 %, not 4 %: at D/d = 2 the handbook fit itself departs from tabulated values (flat r/d = 0.2: fit 1.992,
+    # Carvill's table 1.95, our FE 1.898 and 1.885 at r/40; flat r/d = 0.3: Carvill 1.76 also below the fit;
+    # measured FE/fit - 1: -4.75 %, -4.0 %, shaft +4.1 %). The sharp check of the FE is the Carvill-table test
+    # (4 %); this one checks that the fit and the model agree within the fit's own scatter.
     assert kt == pytest.approx(peterson_fit(shape, D, d, r), rel=0.05)
 
 
