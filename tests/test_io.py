@@ -624,3 +624,33 @@ def test_demo_bracket_folder():
     n = project_l2(field)
     root = np.argmin(np.hypot(mesh.nodes[:, 0] - 60.0, mesh.nodes[:, 1] - 32.0))
     assert abs(n.to_array(region=1)[root, 0] - 240.0) < 5.0
+
+
+@pytest.mark.parametrize("shift, accepted", [(0.005, True), (0.03, False)])
+def test_point_matching_tolerance_is_a_hundredth_in_natural_coordinates(tmp_path, shift, accepted):
+    """Imported integration points are matched to a Gauss point within
+    POINT_TOL = 0.01 in natural coordinates (the documented contract of
+    toolkit.io.points): element 1's 2x2 points moved by 0.005 along xi are
+    still the 2x2 rule (rounding of exported coordinates); moved by 0.03
+    they are none of the first element's points and the reader says so
+    instead of reading them as Gauss points."""
+    mesh = rectangle_mesh("quad4", 3, 1)
+    f = GaussField(mesh, {"quad4": np.arange(12.0).reshape(3, 4, 1)}, ("s",))
+    write_results(tmp_path, mesh, f)
+    header, rows = _rows(tmp_path / "gauss.csv")
+    g = 1 / np.sqrt(3)
+    moved = np.array([[-g, -g], [g, -g], [-g, g], [g, g]]) + [shift, 0.0]
+    x = mesh.geometry("quad4", moved).x_cqi[1]
+    for p in range(4):
+        c = rows[4 + p].split(",")
+        c[2], c[3] = repr(float(x[p, 0])), repr(float(x[p, 1]))
+        rows[4 + p] = ",".join(c)
+    (tmp_path / "gauss.csv").write_text(header + "\n" + "\n".join(rows) + "\n")
+    (tmp_path / "about.json").unlink()
+    if accepted:
+        _, f2 = read_results(tmp_path)
+        assert f2.rule_labels["quad4"] == mesh.block("quad4").element.full_rule.name
+        assert np.array_equal(f2.values["quad4"], f.values["quad4"])
+    else:
+        with pytest.raises(ValueError, match=r"point 1 of element 1 .*same set of points"):
+            read_results(tmp_path)

@@ -187,3 +187,27 @@ def test_per_cell_in_chunks_matches_einsum(monkeypatch):
     T, V, w = rng.normal(size=(5, 4)), rng.normal(size=(30, 4, 3)), rng.uniform(size=(30, 4))
     np.testing.assert_allclose(la.per_cell(T, V, w), np.einsum("rq,cq,cqa->cra", T, w, V), atol=1e-13)
     np.testing.assert_allclose(la.per_cell(T, V), np.einsum("rq,cqa->cra", T, V), atol=1e-13)
+
+
+def test_jacobi_cg_ends_in_as_many_steps_as_the_preconditioned_matrix_has_eigenvalues():
+    """Conjugate gradients end, in exact arithmetic, after as many steps as the
+    (preconditioned) matrix has distinct eigenvalues (closed form: the finite
+    termination of CG, Hestenes & Stiefel 1952; the Krylov space of a matrix
+    with k distinct eigenvalues has dimension at most k).
+    A = D^1/2 B D^1/2 with B = (1 - beta) I + beta 11^T (unit diagonal, two
+    eigenvalues 1 - beta and 1 + (n - 1) beta) and D spread over four decades:
+    diag(A)^-1 A = D^-1/2 B D^1/2 is similar to B, so Jacobi-preconditioned CG
+    ends in 2 steps (3 allowed for rounding), while A itself has n distinct
+    eigenvalues and a condition number near 1e4.  A preconditioner applied at
+    the first step only would need tens of steps."""
+    n, beta = 60, 0.4
+    d = np.logspace(0, 4, n)
+    B = (1 - beta) * np.eye(n) + beta * np.ones((n, n))
+    A = sp.csr_matrix(np.sqrt(d)[:, None] * B * np.sqrt(d)[None, :])
+    rhs = np.random.default_rng(11).normal(size=(n, 2))
+    X, it, res = block_cg(A, rhs, 1.0 / A.diagonal(), rtol=1e-10)
+    np.testing.assert_allclose(A @ X, rhs, rtol=0, atol=1e-8 * np.abs(rhs).max())
+    assert np.all(it <= 3), it
+    # unpreconditioned (identity) CG on the same system needs far more steps: the test can tell them apart
+    _, it_plain, _ = block_cg(A, rhs, np.ones(n), rtol=1e-6, maxiter=2000)
+    assert np.all(it_plain >= 20), it_plain
