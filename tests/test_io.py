@@ -654,3 +654,47 @@ def test_point_matching_tolerance_is_a_hundredth_in_natural_coordinates(tmp_path
     else:
         with pytest.raises(ValueError, match=r"point 1 of element 1 .*same set of points"):
             read_results(tmp_path)
+
+
+# ---------------------------------------------------------------------------
+# sizes and types given in files are checked before anything is allocated
+# ---------------------------------------------------------------------------
+def test_about_huge_point_count_is_refused_fast(tmp_path):
+    # behaviour: 1e8 = 10^4 x 10^4 would build a 100-million-point tensor rule (8.6 GB) before failing
+    import time
+    d = _copy(DEMO, tmp_path / "d")
+    about = json.loads((d / "about.json").read_text()) if (d / "about.json").exists() else {}
+    about["points"] = 100_000_000
+    (d / "about.json").write_text(json.dumps(about))
+    t0 = time.perf_counter()
+    with pytest.raises(ValueError, match=r"about\.json.*'points' 100000000 is more than the 1000 integration points"):
+        read_results(d)
+    assert time.perf_counter() - t0 < 5.0
+
+
+def test_npz_cell_index_beyond_32_bits_is_refused(tmp_path):
+    # behaviour: 2**32 + 3 cast to int32 would read as node 3
+    mesh, field = model_2d()
+    write_results(tmp_path / "x.npz", mesh, field)
+    with np.load(tmp_path / "x.npz") as z:
+        arrays = {k: z[k] for k in z.files}
+    cells = arrays["quad8.cells"].astype(np.int64)
+    cells[0, 0] = 2**32 + 3
+    arrays["quad8.cells"] = cells
+    np.savez(tmp_path / "y.npz", **arrays)
+    with pytest.raises(ValueError, match=r"y\.npz: array 'quad8\.cells', cell 0: node index out of range 0\.\.\d+ "
+                                         r"\(\[4294967299,"):
+        read_results(tmp_path / "y.npz")
+
+
+@pytest.mark.parametrize("key", ["quad8.cells", "quad8.ids", "node_ids"])
+def test_npz_text_where_integers_belong_is_one_line_error(tmp_path, key):
+    mesh, field = model_2d()
+    write_results(tmp_path / "x.npz", mesh, field)
+    with np.load(tmp_path / "x.npz") as z:
+        arrays = {k: z[k] for k in z.files}
+    arrays[key] = arrays[key].astype(str)
+    np.savez(tmp_path / "y.npz", **arrays)
+    with pytest.raises(ValueError, match=rf"y\.npz: array '{key}' must hold integers, got text") as e:
+        read_results(tmp_path / "y.npz")
+    assert "\n" not in str(e.value)

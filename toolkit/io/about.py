@@ -6,17 +6,23 @@ from __future__ import annotations
 from toolkit.errors import InputError
 from toolkit.core.elements import get_element
 
-__all__ = ["FORMAT", "ABOUT_KEYS", "check_about", "declared_points"]
+__all__ = ["FORMAT", "ABOUT_KEYS", "MAX_RULE_POINTS", "check_about", "declared_points"]
 
 #: Format label written into ``about.json`` and ``.npz`` files.
 FORMAT = "stresspath-results/1"
 
 ABOUT_KEYS = ("format", "points", "units", "description", "name")
 
+#: The largest point count a result set may declare per element: a 10 x 10 x 10 Gauss rule on a hex
+#: (common practice uses at most 3 or 4 per direction).  Checked before any rule is built, since a
+#: tensor rule's size grows with the count.
+MAX_RULE_POINTS = 1000
+
 
 def check_about(about: dict, where: str) -> dict:
     """``about`` itself once checked: only the keys of :data:`ABOUT_KEYS`, our
-    format label, ``points`` a rule name, a point count or an object of those
+    format label, ``points`` a rule name, a point count (at most
+    :data:`MAX_RULE_POINTS`) or an object of those
     by element type, ``units`` a string or an object of strings; ``where``
     names the source in the messages."""
     if not isinstance(about, dict):
@@ -36,6 +42,9 @@ def check_about(about: dict, where: str) -> dict:
                 raise InputError(f"{where}: 'points': {e}") from None
     for s in specs:
         ok = s in ("full", "reduced") or (isinstance(s, int) and not isinstance(s, bool) and s > 0)
+        if ok and isinstance(s, int) and s > MAX_RULE_POINTS:
+            raise InputError(f"{where}: 'points' {s} is more than the {MAX_RULE_POINTS} integration points "
+                             "an element may carry")
         if not ok:
             raise InputError(f"{where}: 'points' must be 'full', 'reduced', a point count, or an object "
                              f"{{element type: one of those}}; got {s!r}")

@@ -54,6 +54,33 @@ def _npz_about(zz, path):
     return check_about(about, f"{path} (about)")
 
 
+def _integers(a, what, path):
+    """``a`` as int64, checked before any narrowing: integers (or integral
+    finite floats) within the 64-bit range, else a one-line InputError."""
+    a = np.asarray(a)
+    if a.dtype.kind in "iu":
+        if a.dtype.kind == "u" and a.size and int(a.max()) > np.iinfo(np.int64).max:
+            raise InputError(f"{path}: array {what!r} holds a value beyond the 64-bit integer range")
+        return a.astype(np.int64)
+    if a.dtype.kind == "f" and (not a.size or (np.isfinite(a).all() and (a == np.round(a)).all()
+                                               and np.abs(a).max() < 2.0 ** 63)):
+        return a.astype(np.int64)
+    kind = {"U": "text", "S": "bytes", "O": "objects", "b": "booleans", "f": "non-integer numbers",
+            "c": "complex numbers"}.get(a.dtype.kind, str(a.dtype))
+    raise InputError(f"{path}: array {what!r} must hold integers, got {kind} ({a.dtype})")
+
+
+def _check_cells(cells, n, name, path):
+    """Node indices of block ``name``: int64 within ``0..n-1``, checked before the mesh narrows them."""
+    if cells.size:
+        bad = np.flatnonzero(((cells < 0) | (cells >= n)).any(axis=-1) if cells.ndim > 1 else (cells < 0) | (cells >= n))
+        if bad.size:
+            c = int(bad[0])
+            raise InputError(f"{path}: array {name + '.cells'!r}, cell {c}: node index out of range 0..{n - 1} "
+                             f"({np.atleast_1d(cells[c]).tolist()}); {bad.size} such cells")
+    return cells
+
+
 def read_npz_about(path: Path) -> dict:
     """The checked about record stored in the ``.npz`` file ``path``."""
     with _open_npz(path) as z:
@@ -70,13 +97,19 @@ def read_npz(path: Path):
         names = [str(n) for n in zz.get("blocks").ravel()]
         comps = [str(c) for c in zz.get("components").ravel()]
         blocks, regs, ids, vals, pts = {}, {}, {}, {}, {}
+        nodes, node_ids = zz.get("nodes"), _integers(zz.get("node_ids"), "node_ids", path)
+        if nodes.dtype.kind not in "iuf":
+            raise InputError(f"{path}: array 'nodes' must hold numbers, got {nodes.dtype}")
         for n in names:
-            blocks[n] = zz.get(f"{n}.cells")
-            regs[n] = zz.get(f"{n}.regions")
-            ids[n] = zz.get(f"{n}.ids")
+            blocks[n] = _check_cells(_integers(zz.get(f"{n}.cells"), f"{n}.cells", path), len(nodes), n, path)
+            regs[n] = _integers(zz.get(f"{n}.regions"), f"{n}.regions", path)
+            ids[n] = _integers(zz.get(f"{n}.ids"), f"{n}.ids", path)
             vals[n] = zz.get(f"{n}.values")
+            if vals[n].dtype.kind not in "iuf":
+                raise InputError(f"{path}: array {n + '.values'!r} must hold numbers, got {vals[n].dtype}")
             pts[n] = zz.get(f"{n}.points")
-        nodes, node_ids = zz.get("nodes"), zz.get("node_ids")
+            if pts[n].dtype.kind not in "iuf":
+                raise InputError(f"{path}: array {n + '.points'!r} must hold numbers, got {pts[n].dtype}")
     try:
         mesh = Mesh(nodes, blocks, regions=regs, node_ids=node_ids, cell_ids=ids)
         spec = {}

@@ -11,6 +11,7 @@ import numpy as np
 from toolkit.errors import InputError
 from toolkit.core.arrays import chunk_slices
 from toolkit.core.mesh import inverse_map
+from toolkit.io.about import MAX_RULE_POINTS
 
 __all__ = ["POINT_TOL", "candidate_rule", "rule_spec", "match_points"]
 
@@ -29,7 +30,10 @@ def rule_spec(et, rule):
 
 
 def candidate_rule(et, q):
-    """The stored Gauss rule of ``et``'s shape with ``q`` points, or None."""
+    """The stored Gauss rule of ``et``'s shape with ``q`` points, or None
+    (also for more than :data:`~toolkit.io.about.MAX_RULE_POINTS` points, before any rule is built)."""
+    if not 0 < int(q) <= MAX_RULE_POINTS:
+        return None
     try:
         return et.rule(int(q))
     except ValueError:
