@@ -29,12 +29,23 @@ import html
 import json
 import math
 import numbers
+import os
+from importlib.resources import files
 from pathlib import Path
 
 from toolkit.errors import InputError, WorkbookError
 from toolkit.report.format import first_non_finite, fmt, json_text, plain
 
-__all__ = ["Summary", "inputs_hash", "read_summary", "SUMMARY_METADATA_KEY", "SUMMARY_FORMAT"]
+__all__ = ["Summary", "inputs_hash", "inputs_record", "input_dirs", "find_input", "input_path", "file_digest",
+           "read_summary", "SHIPPED_DATA_DIR",
+           "SUMMARY_METADATA_KEY", "SUMMARY_FORMAT", "WORKBOOK_DIR_ENV", "CALLER_DIR_ENV"]
+
+#: Environment variables render sets for the kernel: the workbook's folder and the folder render was called from.
+WORKBOOK_DIR_ENV = "STRESSPATH_WORKBOOK_DIR"
+CALLER_DIR_ENV = "STRESSPATH_CALLER_DIR"
+#: The shipped demo data (``data/`` in the repository, ``toolkit.data`` installed): the last place a
+#: relative input path is looked for, so a workbook copied elsewhere still finds the demo.
+SHIPPED_DATA_DIR = Path(str(files("toolkit.data")))
 
 SUMMARY_METADATA_KEY = "stresspath"
 SUMMARY_FORMAT = 1
@@ -49,16 +60,116 @@ def _finite_plain(v, where):
     return plain(v, where)
 
 
-def inputs_hash(params) -> str:
-    """First 12 hex digits of the SHA-256 of the canonical JSON of ``params``.
+def _canonical_hash(obj) -> str:
+    text = json.dumps(obj, sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False)
+    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:12]
+
+
+def inputs_hash(params, inputs=None) -> str:
+    """First 12 hex digits of the SHA-256 of the canonical JSON of the inputs.
 
     Canonical JSON: keys sorted, separators ``(",", ":")``, UTF-8, no NaN.
-    The same parameter values give the same hash on any machine, so a
-    report's footer identifies the inputs it was made from.
+    With ``params`` only, the JSON of the parameter values (kept for callers
+    that hash parameters alone).  With ``inputs``, the record of
+    :func:`inputs_record` (imported files, S-N data, toolkit version), the
+    JSON of ``{"parameters": params, "inputs": inputs}``: this full hash is the
+    one a report carries (summary.json and the footer), so the same inputs
+    give the same hash on any machine and a changed data file changes it.
     """
-    text = json.dumps(_finite_plain(dict(params), "inputs_hash"), sort_keys=True, separators=(",", ":"),
-                      ensure_ascii=False, allow_nan=False)
-    return hashlib.sha256(text.encode("utf-8")).hexdigest()[:12]
+    p = _finite_plain(dict(params), "inputs_hash")
+    if inputs is None:
+        return _canonical_hash(p)
+    return _canonical_hash({"parameters": p, "inputs": plain(inputs, "inputs_hash")})
+
+
+def file_digest(path) -> str:
+    """SHA-256 (hex) of a file's bytes, or of a folder: every file below it in
+    sorted relative-name order, each as its relative name and its bytes' digest."""
+    path = Path(path)
+    if path.is_file():
+        h = hashlib.sha256()
+        with open(path, "rb") as f:
+            for block in iter(lambda: f.read(1 << 20), b""):
+                h.update(block)
+        return h.hexdigest()
+    entries = sorted((q.relative_to(path).as_posix(), q) for q in path.rglob("*") if q.is_file())
+    h = hashlib.sha256()
+    for rel, q in entries:
+        h.update(f"{rel}\0{file_digest(q)}\n".encode("utf-8"))
+    return h.hexdigest()
+
+
+def input_dirs():
+    """Folders relative paths in parameters are read from, in order: the
+    workbook's folder and the caller's folder when render set them, else the
+    current folder."""
+    dirs = [os.environ.get(WORKBOOK_DIR_ENV), os.environ.get(CALLER_DIR_ENV)]
+    dirs = [Path(d) for d in dirs if d]
+    return dirs or [Path.cwd()]
+
+
+def find_input(text, dirs=None):
+    """The existing file or folder a parameter string names, or None.
+
+    An absolute path as it is; a relative one in each of ``dirs`` (default
+    :func:`input_dirs`) in order, then in the shipped data folder
+    (:data:`SHIPPED_DATA_DIR`, e.g. ``"demo_bracket"``).  Empty strings name nothing.
+    """
+    if not isinstance(text, str) or not text.strip() or "\0" in text or len(text) > 4096:
+        return None
+    cand = Path(text)
+    dirs = input_dirs() if dirs is None else [Path(d) for d in dirs]
+    for where in ([cand] if cand.is_absolute() else [d / cand for d in [*dirs, SHIPPED_DATA_DIR]]):
+        try:
+            if where.exists():
+                return where.resolve()
+        except OSError:
+            continue
+    return None
+
+
+def input_path(text) -> Path:
+    """:func:`find_input` for a workbook cell: the path, or a one-line InputError."""
+    found = find_input(text)
+    if found is None:
+        raise InputError(f"input {text!r} not found in {', '.join(str(d) for d in input_dirs())} "
+                         f"or the shipped data ({SHIPPED_DATA_DIR})")
+    return found
+
+
+def _file_values(name, value):
+    """(key, string) for every string in a parameter value that could name a file."""
+    if isinstance(value, str):
+        yield name, value
+    elif isinstance(value, (list, tuple)):
+        for i, v in enumerate(value):
+            yield from _file_values(f"{name}[{i}]", v)
+    elif isinstance(value, dict):
+        for k, v in value.items():
+            yield from _file_values(f"{name}[{k!r}]", v)
+
+
+def inputs_record(params, dirs=None, sn_path=None) -> dict:
+    """What the full inputs hash covers besides the parameters.
+
+    ``{"files": {key: sha256}, "sn_data": sha256, "toolkit_version": ...}``:
+    every string in a parameter value (``key`` is the parameter name, with
+    ``[i]`` for a list item) that names an existing file or folder, absolute
+    or relative to one of ``dirs`` (default :func:`input_dirs`) or the shipped
+    data (see :func:`find_input`, first match wins), hashed with :func:`file_digest`; the S-N data file (default
+    ``toolkit.assess.checks.SN_DATA_PATH``); the toolkit version.
+    """
+    from toolkit import __version__
+    from toolkit.assess.checks import SN_DATA_PATH
+
+    found = {}
+    for name, value in dict(params).items():
+        for key, text in _file_values(name, value):
+            where = find_input(text, dirs)
+            if where is not None:
+                found[key] = file_digest(where)
+    sn = Path(sn_path) if sn_path is not None else SN_DATA_PATH
+    return {"files": found, "sn_data": file_digest(sn) if sn.is_file() else None, "toolkit_version": __version__}
 
 
 class Summary:
@@ -74,6 +185,8 @@ class Summary:
 
     def __init__(self, parameters=None):
         self.parameters = None if parameters is None else _finite_plain(dict(parameters), "Summary parameters")
+        # the files, S-N data and version the cells see, for render to compare with its own record
+        self.inputs = None if parameters is None else inputs_record(self.parameters)
         self.values = {}
         self.checks = []
         self._digits = {}
@@ -130,6 +243,7 @@ class Summary:
         d = {"values": copy.deepcopy(self.values), "checks": copy.deepcopy(self.checks)}
         if self.parameters is not None:
             d["parameters"] = copy.deepcopy(self.parameters)
+            d["inputs"] = copy.deepcopy(self.inputs)
         return d
 
     def _rows(self):

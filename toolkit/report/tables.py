@@ -12,7 +12,7 @@ import platform
 
 from toolkit.errors import InputError
 from toolkit.report.format import fmt
-from toolkit.report.summary import inputs_hash
+from toolkit.report.summary import inputs_hash, inputs_record
 
 __all__ = ["Table", "inputs_table", "footer", "headless", "HEADLESS_ENV"]
 
@@ -64,9 +64,11 @@ def inputs_table(params: dict, units: dict | None = None, notes: dict | None = N
 
 
 def footer(params: dict) -> str:
-    """Toolkit version, Python version and the inputs hash, so a checker can
-    tell two runs apart."""
+    """Toolkit version, Python version and the full inputs hash (parameters,
+    imported files, S-N data, toolkit version: ``inputs_hash(params,
+    inputs_record(params))``, the hash render writes to summary.json), so a
+    checker can tell two runs apart."""
     from toolkit import __version__
 
     return (f"Stresspath {__version__} (Python {platform.python_version_tuple()[0]}."
-            f"{platform.python_version_tuple()[1]}); inputs hash {inputs_hash(params)}")
+            f"{platform.python_version_tuple()[1]}); inputs hash {inputs_hash(params, inputs_record(params))}")

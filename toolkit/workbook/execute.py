@@ -43,16 +43,16 @@ from pathlib import Path
 
 from toolkit.errors import WorkbookError, WorkbookExecutionError
 from toolkit.report.format import json_text, plain
-from toolkit.report.summary import inputs_hash, read_summary
+from toolkit.report.summary import CALLER_DIR_ENV, WORKBOOK_DIR_ENV, inputs_hash, inputs_record, read_summary
 from toolkit.report.tables import HEADLESS_ENV
 from toolkit.workbook.html import notebook_html
 from toolkit.workbook.notebook import (clean_notebook, clear_outputs, drop_injected, ensure_ids, inject_parameters,
-                                       parameters_cell, read_notebook, resolve_workbook, write_notebook)
+                                       parameters_cell, read_notebook, recorded_parameters, resolve_workbook,
+                                       validate_notebook, write_notebook)
 from toolkit.workbook.parameters import parse_parameters, read_parameters_file, resolve_values
 
 __all__ = ["render", "RenderResult", "workbook_dir", "WORKBOOK_DIR_ENV", "KERNELSPEC"]
 
-WORKBOOK_DIR_ENV = "STRESSPATH_WORKBOOK_DIR"
 KERNELSPEC = {"display_name": "Python 3 (ipykernel)", "language": "python", "name": "python3"}
 
 
@@ -114,6 +114,7 @@ class _Run:
     values: dict
     overrides: dict
     out: Path
+    inputs: dict = None
 
     @property
     def name(self):
@@ -133,20 +134,23 @@ def _check_run(workbook, out_dir, params, params_file) -> _Run:
     spec = nb.metadata.get("kernelspec", {}).get("name")
     if spec not in (None, "python3"):
         raise WorkbookError(f"{label} names kernel {spec!r}; workbooks run on 'python3'")
-    # Drop an earlier injected cell, then find the parameters cell.
+    validate_notebook(nb, label)
+    # An executed notebook re-runs with the values it was rendered with; then drop its injected cell.
+    given = recorded_parameters(nb, label)
     drop_injected(nb)
     pidx = parameters_cell(nb, label)
     params_def = parse_parameters(nb.cells[pidx].source, label)
-    given = {}
+    given = {k: v for k, v in given.items() if k in params_def}   # --params and --set win, name by name
     if params_file is not None:
-        given.update(read_parameters_file(params_file))
+        given.update(read_parameters_file(params_file, workbook=path.stem))
     if params:
         given.update(params)
     values, overrides = resolve_values(params_def, given, label)
     out = Path(out_dir).resolve()
     if out == path.parent:
         raise WorkbookError(f"output folder {out} is the workbook's own folder; choose another (e.g. reports/)")
-    return _Run(path, nb, pidx, values, overrides, out)
+    inputs = inputs_record(plain(values, "parameters"), dirs=[path.parent, Path.cwd()])
+    return _Run(path, nb, pidx, values, overrides, out, inputs)
 
 
 def _inject(run: _Run):
@@ -187,6 +191,7 @@ def _execute(run: _Run, nb_path, timeout, progress) -> int:
                             on_cell_start=on_start, on_cell_executed=on_executed)
     env = dict(os.environ)
     env[WORKBOOK_DIR_ENV] = str(run.path.parent)
+    env[CALLER_DIR_ENV] = os.getcwd()    # the kernel finds imported files where render did (inputs hash)
     env[HEADLESS_ENV] = "1"          # no live widgets: see toolkit.report.headless
     try:
         client.execute(env=env)
@@ -225,10 +230,15 @@ def _write_report(run: _Run, html_path, sum_path) -> dict:
                                                            if rec[k] != run_params[k])
         raise WorkbookError(f"{label}: Summary(parameters=...) differs from the run's parameters in "
                             f"{', '.join(diff)}; pass every parameter unchanged")
+    if "inputs" in data and data["inputs"] != run.inputs:
+        changed = sorted(k for k in set(data["inputs"]) | set(run.inputs) if data["inputs"].get(k) != run.inputs.get(k))
+        raise WorkbookError(f"{label}: the inputs changed while the workbook ran ({', '.join(changed)}); "
+                            "render again")
     from toolkit import __version__
 
-    summary = {"workbook": run.name, "toolkit_version": __version__, "inputs_hash": inputs_hash(run.values),
-               "parameters": run_params, "values": data["values"], "checks": data["checks"]}
+    summary = {"workbook": run.name, "toolkit_version": __version__,
+               "inputs_hash": inputs_hash(run_params, run.inputs), "parameters": run_params,
+               "inputs": run.inputs, "values": data["values"], "checks": data["checks"]}
     html_path.write_text(notebook_html(run.nb, run.name), encoding="utf-8", newline="\n")
     sum_path.write_text(json_text(summary), encoding="utf-8", newline="\n")
     return summary

@@ -17,7 +17,7 @@ from toolkit.workbook.parameters import parse_parameters
 __all__ = ["WORKBOOKS_DIR", "PARAMETERS_TAG", "INJECTED_TAG", "INJECTED_CELL_ID", "WIDGET_VIEW_MIME",
            "known_workbooks", "resolve_workbook", "read_notebook", "write_notebook", "cell_tags",
            "drop_injected", "parameters_cell", "workbook_parameters", "inject_parameters", "clear_outputs",
-           "clean_notebook", "ensure_ids"]
+           "clean_notebook", "ensure_ids", "validate_notebook", "recorded_parameters"]
 
 #: The shipped workbooks (``workbooks/`` in the repository, ``toolkit.workbooks`` installed).
 WORKBOOKS_DIR = Path(str(files("toolkit.workbooks")))
@@ -66,6 +66,51 @@ def read_notebook(path):
     except Exception as e:  # nbformat raises several kinds (JSON, validation)
         raise WorkbookError(f"cannot read notebook {path}: {e}") from None
     return nb
+
+
+def validate_notebook(nb, label):
+    """Check ``nb`` against the nbformat schema before anything runs: a
+    one-line WorkbookError naming the first invalid cell, or None."""
+    import nbformat
+    from nbformat.validator import NotebookValidationError
+
+    try:
+        nbformat.validate(nb)
+    except NotebookValidationError as e:
+        where = list(getattr(e, "absolute_path", []) or [])
+        if len(where) >= 2 and where[0] == "cells" and isinstance(where[1], int):
+            cell = nb.cells[where[1]] if where[1] < len(nb.cells) else {}
+            kind = cell.get("cell_type") if isinstance(cell, dict) else None
+            what = f"cell {where[1] + 1} (id {cell.get('id')!r}, cell_type {kind!r})"
+            if kind not in ("code", "markdown", "raw"):
+                raise WorkbookError(f"{label} is not a valid notebook: {what} has an unknown cell type; "
+                                    "use 'code', 'markdown' or 'raw'") from None
+            raise WorkbookError(f"{label} is not a valid notebook: {what} breaks the nbformat schema") from None
+        msg = " ".join(str(getattr(e, "message", e)).split())[:200]
+        raise WorkbookError(f"{label} is not a valid notebook: {msg}") from None
+
+
+def recorded_parameters(nb, label):
+    """The parameter values an executed notebook was rendered with, or {}.
+
+    The summary record's ``parameters`` (the full set, when the workbook
+    passed them to ``Summary``) if the notebook carries one, else the values
+    in its ``injected-parameters`` cell; a notebook never rendered gives {}.
+    """
+    from toolkit.report.summary import SUMMARY_METADATA_KEY
+
+    for cell in nb.cells:
+        for out in cell.get("outputs", []) if cell.get("cell_type") == "code" else []:
+            md = out.get("metadata", {}).get(SUMMARY_METADATA_KEY)
+            if isinstance(md, dict) and isinstance(md.get("summary"), dict) \
+                    and isinstance(md["summary"].get("parameters"), dict):
+                return dict(md["summary"]["parameters"])
+    values = {}
+    for cell in nb.cells:
+        if INJECTED_TAG in cell_tags(cell):
+            values.update({k: p.default for k, p in
+                           parse_parameters(cell.source, f"injected cell of {label}").items()})
+    return values
 
 
 def write_notebook(nb, path):

@@ -23,11 +23,26 @@ carry constraints, as clauses separated by ``;``::
   ``float`` parameters only.
 * ``one of: LIT, LIT, ...`` -- the allowed values, Python literals of the
   parameter's type.
+* ``items: CHAIN`` -- for a ``list`` or ``tuple`` of numbers: a range every
+  item must lie in (``items: 0 <= x <= 1``).
+* ``length: CHAIN`` or ``length: N`` -- for a ``list``, ``tuple`` or
+  ``dict``: a range of its number of entries (``length: >= 1``), or an exact
+  count (``length: 2``).  Without it, a container whose default has entries
+  must have at least one (an empty one is refused); one whose default is
+  empty may stay empty.
+* ``rule: EXPR`` -- a rule across parameters, checked once every value is
+  known: a comparison chain (``<``, ``<=``, ``>``, ``>=``, ``==``, ``!=``) of
+  arithmetic (``+ - * /``, parentheses, ``min(...)``, ``max(...)``) over
+  numeric parameters of the cell and numbers, e.g. ``rule: hole_diameter <
+  width``.  Any assignment's comment may carry rules.
 * any other clause is free text (unit, description).  A free-text clause that
-  contains ``range:``, ``one of:``, ``<`` or ``>`` is refused as a malformed
-  constraint, so a mistyped constraint is never silently ignored.
+  contains ``range:``, ``one of:``, ``items:``, ``length:``, ``rule:``, ``<``
+  or ``>`` is refused as a malformed constraint, so a mistyped constraint is
+  never silently ignored.
 
-The defaults themselves must satisfy their constraints.
+The defaults themselves must satisfy their constraints.  Every number inside
+a value, at any depth, must be finite, and a value may not nest deeper than
+its default (an empty default list holds plain values).
 """
 from __future__ import annotations
 
@@ -46,7 +61,7 @@ from toolkit.errors import InputError, ParameterError
 from toolkit.report.format import fmt
 
 __all__ = ["Parameter", "parse_parameters", "conform", "violation", "resolve_values", "read_parameters_file",
-           "parse_assignment", "ParameterError"]
+           "parse_assignment", "check_rules", "rule_holds", "ParameterError"]
 
 
 _TYPES = {bool: "bool", int: "int", float: "float", str: "str", list: "list", tuple: "tuple", dict: "dict"}
@@ -69,6 +84,9 @@ class Parameter:
     bounds: tuple = ()
     choices: tuple | None = None
     text: str = ""
+    items: tuple = ()
+    length: tuple = ()
+    rules: tuple = ()
 
     @property
     def range_text(self):
@@ -148,10 +166,27 @@ def _looks_like_range(clause, name):
     return bool(re.match(rf"^\s*(x|{re.escape(name)})\s*[<>]", clause))
 
 
+def _parse_length(text, where):
+    t = text.strip()
+    if re.fullmatch(r"\d+", t):
+        return ((">=", int(t)), ("<=", int(t)))
+    return _parse_range(t, "x", where)
+
+
 def _parse_comment(comment, name, ptype, where):
     bounds, choices, text = (), None, []
+    items, length, rules = (), (), []
     for clause in _split_clauses(comment):
         low = clause.lower()
+        if low.startswith("items:"):
+            items = _parse_range(clause[6:], "x", where)
+            continue
+        if low.startswith("length:"):
+            length = _parse_length(clause[7:], where)
+            continue
+        if low.startswith("rule:"):
+            rules.append(_parse_rule(clause[5:], where))
+            continue
         if low.startswith("range:"):
             new = _parse_range(clause[6:], name, where)
         elif clause[:1] in "<>" or _looks_like_range(clause, name) or re.match(r"^\s*-?[\d.]+\s*[<>]", clause):
@@ -162,9 +197,10 @@ def _parse_comment(comment, name, ptype, where):
             choices = _parse_choices(clause[7:], where)
             continue
         else:
-            if re.search(r"range\s*:|one\s+of\s*:|[<>]", low):
-                raise ParameterError(f"{where}: malformed constraint in comment clause {clause!r}: "
-                                     "start the clause with 'range:' or 'one of:' and separate clauses with ';'")
+            if re.search(r"range\s*:|one\s+of\s*:|items\s*:|length\s*:|rule\s*:|[<>]", low):
+                raise ParameterError(f"{where}: malformed constraint in comment clause {clause!r}: start the "
+                                     "clause with 'range:', 'one of:', 'items:', 'length:' or 'rule:' and "
+                                     "separate clauses with ';'")
             text.append(clause)
             continue
         if bounds:
@@ -172,7 +208,112 @@ def _parse_comment(comment, name, ptype, where):
         bounds = new
     if bounds and ptype not in (int, float):
         raise ParameterError(f"{where}: a range applies to int or float parameters, not {_TYPES[ptype]}")
-    return bounds, choices, "; ".join(text)
+    if items and ptype not in (list, tuple):
+        raise ParameterError(f"{where}: 'items:' applies to list or tuple parameters, not {_TYPES[ptype]}")
+    if length and ptype not in (list, tuple, dict):
+        raise ParameterError(f"{where}: 'length:' applies to list, tuple or dict parameters, not {_TYPES[ptype]}")
+    return bounds, choices, "; ".join(text), items, length, tuple(rules)
+
+
+_RULE_OPS = {ast.Lt: "<", ast.LtE: "<=", ast.Gt: ">", ast.GtE: ">=", ast.Eq: "==", ast.NotEq: "!="}
+_RULE_NODES = (ast.Expression, ast.Compare, ast.BinOp, ast.UnaryOp, ast.Name, ast.Constant, ast.Load, ast.Call,
+               ast.Add, ast.Sub, ast.Mult, ast.Div, ast.USub, ast.UAdd, *_RULE_OPS)
+
+
+def _parse_rule(text, where):
+    """A ``rule:`` clause: its source, checked to use only the rule grammar."""
+    src = text.strip()
+    try:
+        tree = ast.parse(src, mode="eval")
+    except SyntaxError:
+        raise ParameterError(f"{where}: cannot read rule {src!r}; write e.g. 'rule: hole_diameter < width'") from None
+    if not isinstance(tree.body, ast.Compare):
+        raise ParameterError(f"{where}: rule {src!r} is not a comparison such as 'hole_diameter < width'")
+    for node in ast.walk(tree):
+        if not isinstance(node, _RULE_NODES):
+            raise ParameterError(f"{where}: rule {src!r} may use only parameter names, numbers, + - * /, "
+                                 "min(), max() and comparisons")
+        if isinstance(node, ast.Constant) and (isinstance(node.value, bool)
+                                               or not isinstance(node.value, (int, float))):
+            raise ParameterError(f"{where}: rule {src!r}: only numbers may appear as constants")
+        if isinstance(node, ast.Call) and not (isinstance(node.func, ast.Name) and node.func.id in ("min", "max")
+                                               and node.args and not node.keywords):
+            raise ParameterError(f"{where}: rule {src!r}: the only functions are min() and max()")
+    return src
+
+
+def _rule_names(src):
+    tree = ast.parse(src, mode="eval")
+    calls = {id(n.func) for n in ast.walk(tree) if isinstance(n, ast.Call)}
+    return [n.id for n in ast.walk(tree) if isinstance(n, ast.Name) and id(n) not in calls]
+
+
+def _eval_rule_node(node, values):
+    if isinstance(node, ast.Constant):
+        return node.value
+    if isinstance(node, ast.Name):
+        return values[node.id]
+    if isinstance(node, ast.UnaryOp):
+        v = _eval_rule_node(node.operand, values)
+        return -v if isinstance(node.op, ast.USub) else v
+    if isinstance(node, ast.BinOp):
+        a, b = _eval_rule_node(node.left, values), _eval_rule_node(node.right, values)
+        if isinstance(node.op, ast.Div):
+            return a / b if b != 0 else math.inf
+        return {ast.Add: a + b, ast.Sub: a - b, ast.Mult: a * b}[type(node.op)]
+    if isinstance(node, ast.Call):
+        args = [_eval_rule_node(a, values) for a in node.args]
+        return min(args) if node.func.id == "min" else max(args)
+    raise AssertionError(node)  # pragma: no cover - _parse_rule refuses other nodes
+
+
+def rule_holds(src, values):
+    """Whether rule ``src`` (a ``rule:`` clause) holds for ``values``."""
+    tree = ast.parse(src, mode="eval").body
+    operands = [tree.left] + list(tree.comparators)
+    vals = [_eval_rule_node(o, values) for o in operands]
+    ops = {"<": float.__lt__, "<=": float.__le__, ">": float.__gt__, ">=": float.__ge__,
+           "==": float.__eq__, "!=": float.__ne__}
+    return all(ops[_RULE_OPS[type(op)]](float(a), float(b)) for op, a, b in zip(tree.ops, vals, vals[1:]))
+
+
+def check_rules(params, values, label):
+    """One-line ParameterError naming every broken ``rule:`` of ``params`` for ``values``."""
+    broken = []
+    for p in params.values():
+        for src in p.rules:
+            if not rule_holds(src, values):
+                shown = ", ".join(f"{n} = {fmt(values[n], 6)}" for n in dict.fromkeys(_rule_names(src)))
+                broken.append(f"rule {src!r} of {label} does not hold ({shown})")
+    if broken:
+        raise ParameterError("; ".join(broken))
+
+
+def _depth(v, limit=64):
+    """Nesting depth of a value (0 for a scalar, 1 for a flat list), stopping past ``limit``."""
+    if not isinstance(v, (list, tuple, dict)):
+        return 0
+    if limit <= 0:
+        return 1
+    children = v.values() if isinstance(v, dict) else v
+    return 1 + max((_depth(c, limit - 1) for c in children), default=0)
+
+
+def _first_non_finite(v, where):
+    """``where`` of the first NaN or infinity inside ``v``, or None."""
+    if isinstance(v, float):
+        return None if math.isfinite(v) else where
+    if isinstance(v, (list, tuple)):
+        for i, c in enumerate(v):
+            w = _first_non_finite(c, f"{where}, item {i}")
+            if w:
+                return w
+    if isinstance(v, dict):
+        for k, c in v.items():
+            w = _first_non_finite(c, f"{where}, key {k!r}")
+            if w:
+                return w
+    return None
 
 
 def _comments_by_line(source):
@@ -224,15 +365,22 @@ def parse_parameters(source, workbook="workbook"):
         if ptype is float and not math.isfinite(default):
             raise ParameterError(f"{where}: default must be finite")
         comment = " ; ".join(comments[i] for i in range(node.lineno, node.end_lineno + 1) if i in comments)
-        bounds, choices, text = _parse_comment(comment, name, ptype, where)
-        p = Parameter(name, default, ptype, node.lineno, bounds, None, text)
+        bounds, choices, text, items, length, rules = _parse_comment(comment, name, ptype, where)
+        p = Parameter(name, default, ptype, node.lineno, bounds, None, text, items, length, rules)
         if choices is not None:
             choices = tuple(conform(p, c, f"{where}, choice {c!r}") for c in choices)
-            p = Parameter(name, default, ptype, node.lineno, bounds, choices, text)
+            p = Parameter(name, default, ptype, node.lineno, bounds, choices, text, items, length, rules)
         problem = violation(p, default)
         if problem:
             raise ParameterError(f"{where}: default {problem}")
         params[name] = p
+    for p in params.values():
+        for src in p.rules:
+            for n in _rule_names(src):
+                if n not in params or params[n].type not in (int, float):
+                    raise ParameterError(f"rule {src!r} of {workbook} (line {p.line}): {n!r} is not a numeric "
+                                         "parameter of the cell")
+    check_rules(params, {n: p.default for n, p in params.items()}, f"{workbook} (defaults)")
     return params
 
 
@@ -275,6 +423,14 @@ def conform(p, value, where):
     kind = p.type
     if kind in (bool, int, float, str):
         return _conform_scalar(kind, value, where)
+    if kind in (list, tuple, dict):
+        bad = _first_non_finite(value, where)
+        if bad:
+            raise ParameterError(f"{bad}: must be finite")
+        allowed = max(_depth(p.default), 1)
+        if _depth(value, allowed + 1) > allowed:
+            raise ParameterError(f"{where}: nested deeper than its type allows ({allowed} "
+                                 f"level{'s' if allowed > 1 else ''}, as in its default)")
     if kind in (list, tuple):
         if not isinstance(value, (list, tuple)):
             raise ParameterError(f"{where} expects {_TYPES[kind]}, got {_type_name(value)} {value!r}")
@@ -297,6 +453,19 @@ def violation(p, value):
             return f"= {fmt(value, 6)} is out of range: {p.range_text}"
     if p.choices is not None and value not in p.choices:
         return f"= {value!r} is not one of: {', '.join(repr(c) for c in p.choices)}"
+    if p.type in (list, tuple, dict):
+        n = len(value)
+        length = p.length or (((">=", 1),) if len(p.default) else ())
+        for op, c in length:
+            if not {"<": n < c, "<=": n <= c, ">": n > c, ">=": n >= c}[op]:
+                need = " and ".join(f"length {o} {fmt(k, 6)}" for o, k in length)
+                return f"has {n} entr{'y' if n == 1 else 'ies'}; it needs {need}"
+    for i, v in enumerate(value if p.items and p.type in (list, tuple) else ()):
+        for op, c in p.items:
+            if isinstance(v, bool) or not isinstance(v, numbers.Real) or \
+                    not {"<": v < c, "<=": v <= c, ">": v > c, ">=": v >= c}[op]:
+                rng = " and ".join(f"x {o} {fmt(k, 6)}" for o, k in p.items)
+                return f"item {i} = {v!r} is out of range: {rng}"
     return ""
 
 
@@ -328,11 +497,18 @@ def resolve_values(params, given, label):
         values[name] = overrides[name] = v
     if problems:
         raise ParameterError("; ".join(problems))
+    check_rules(params, values, label)
     return values, overrides
 
 
-def read_parameters_file(params_file):
-    """The ``{name: value}`` JSON object in ``params_file``, or a one-line ParameterError."""
+def read_parameters_file(params_file, workbook=None):
+    """The ``{name: value}`` JSON object in ``params_file``, or a one-line ParameterError.
+
+    The file may also be a run's ``summary.json`` (an object with
+    ``workbook`` and a ``parameters`` object): then its ``parameters`` are the
+    values and its other keys are ignored; if ``workbook`` (the name being
+    rendered) is given, the summary's workbook must be the same one.
+    """
     p = Path(params_file)
     try:
         data = json.loads(p.read_text(encoding="utf-8"))
@@ -340,8 +516,15 @@ def read_parameters_file(params_file):
         raise ParameterError(f"parameters file {p} not found") from None
     except json.JSONDecodeError as e:
         raise ParameterError(f"parameters file {p}: not valid JSON (line {e.lineno}: {e.msg})") from None
+    except RecursionError:
+        raise ParameterError(f"parameters file {p}: nested too deeply") from None
     if not isinstance(data, dict):
         raise ParameterError(f"parameters file {p}: expected a JSON object of name: value, got {type(data).__name__}")
+    if isinstance(data.get("parameters"), dict) and "workbook" in data:
+        if workbook is not None and data["workbook"] != workbook:
+            raise ParameterError(f"parameters file {p} is the summary of workbook {data['workbook']!r}, "
+                                 f"not of {workbook!r}")
+        return dict(data["parameters"])
     return data
 
 
@@ -359,4 +542,6 @@ def parse_assignment(text):
         value = json.loads(raw, parse_constant=_reject_constant)
     except ValueError:
         value = raw
+    except RecursionError:
+        raise ParameterError(f"--set {name}: value nested too deeply") from None
     return name, value

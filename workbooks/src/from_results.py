@@ -38,14 +38,14 @@ from toolkit.assess.paths import path_from_spec
 from toolkit.core.locate import PointLocator
 from toolkit.core.stress import rotate_2d, von_mises
 from toolkit.report.widgets import path_panel, plot_path_comparison
-from toolkit.workbook import Summary, workbook_dir
+from toolkit.workbook import Summary, input_path
 
 # %% tags=["parameters"]
-results = "../data/demo_bracket"   # neutral result folder or .npz file, relative to the workbook's folder
+results = "demo_bracket"          # neutral result folder or .npz file: a path (relative ones from the workbook's folder), or a shipped demo's name
 paths = [{"name": "notch ligament", "start": [60.0, 31.9], "end": [60.0, 0.0]},
          {"name": "lower edge", "start": [0.0, 0.0], "end": [120.0, 0.0]}]   # lines, polylines or arcs (mm)
-toe_point = [100.0, 40.0]          # mm, on the plate surface at the toe
-toe_direction = [-1.0, 0.0]        # along the surface, away from the toe (normalised here)
+toe_point = [100.0, 40.0]          # mm, on the plate surface at the toe; length: 2
+toe_direction = [-1.0, 0.0]        # along the surface, away from the toe (normalised here); length: 2
 plate_thickness = 10.0             # mm; range: 0 < x <= 200
 fat_class = 90.0                   # MPa, FAT class of the hot-spot detail; range: 0 < x <= 250
 cycles = 2000000.0                 # load cycles of the stress range; range: 0 < x <= 1e12
@@ -66,7 +66,7 @@ units = dict(toe_point="mm", plate_thickness="mm", fat_class="MPa", yield_streng
 report.inputs_table(params, units)
 
 # %%
-source = (workbook_dir() / results).resolve()
+source = input_path(results)
 mesh, field = tk.read_results(source)
 about = tk.io.read_about(source) if source.is_dir() else {}
 print(f"results: {source.name} ({about.get('description', 'no description')[:60]}...)")
@@ -207,7 +207,7 @@ print(f"global relative error eta = {ind.eta:.2%} (Zienkiewicz-Zhu, L2 norm)")
 if len(refined_results) >= 2:
     peaks, sizes = [], []
     for folder in [results] + list(refined_results):
-        m_i, f_i = tk.read_results((workbook_dir() / folder).resolve())
+        m_i, f_i = tk.read_results(input_path(folder))
         n_i = tk.project_l2(f_i)
         peaks.append(float(np.nanmax(von_mises(n_i.values, n_i.components))))
         sizes.append(tk.quality.representative_size(m_i.ncells, m_i.volumes().sum(), 2))

@@ -41,12 +41,12 @@ from toolkit.workbook import Summary
 # %% tags=["parameters"]
 width = 100.0            # mm, plate width W across the load; range: 0 < x <= 5000
 length = 300.0           # mm, plate length L along the load; range: 0 < x <= 20000
-hole_diameter = 25.0     # mm, d; range: 0 < x <= 5000
+hole_diameter = 25.0     # mm, d; range: 0 < x <= 5000; rule: hole_diameter < width; rule: hole_diameter < length
 thickness = 10.0         # mm; range: 0 < x <= 500
 remote_stress = 60.0     # MPa, gross remote stress σ on the plate ends; range: 0 < x <= 2000
 yield_strength = 355.0   # MPa; range: 0 < x <= 2000
 safety_factor = 1.5      # on yield; range: 1 <= x <= 10
-element_size = 1.25      # mm, element size at the hole edge; range: 0 < x <= 100
+element_size = 1.25      # mm, element size at the hole edge; range: 0 < x <= 100; rule: element_size <= hole_diameter / 2
 
 # %% [markdown]
 # ## Inputs

@@ -41,14 +41,14 @@ from toolkit.workbook import Summary
 # %% tags=["parameters"]
 shape = "flat"               # one of: "flat", "shaft"
 large_width = 60.0           # mm, D (width of the flat bar, or shaft diameter); range: 0 < x <= 5000
-small_width = 40.0           # mm, d; range: 0 < x <= 5000
-fillet_radius = 4.0          # mm, r; range: 0 < x <= 1000
+small_width = 40.0           # mm, d; range: 0 < x <= 5000; rule: small_width < large_width
+fillet_radius = 4.0          # mm, r; range: 0 < x <= 1000; rule: fillet_radius <= (large_width - small_width) / 2
 load = "tension"             # one of: "tension", "bending"
 nominal_stress = 100.0       # MPa, in the small section (bending: at its outer fibre); range: 0 < x <= 2000
 yield_strength = 355.0       # MPa; range: 0 < x <= 2000
 tensile_strength = 510.0     # MPa, for the notch sensitivity; range: 0 < x <= 3000
 safety_factor = 1.5          # on yield; range: 1 <= x <= 10
-element_size = 0.25          # mm, element size along the fillet; range: 0 < x <= 100
+element_size = 0.25          # mm, element size along the fillet; range: 0 < x <= 100; rule: element_size <= fillet_radius
 
 # %% [markdown]
 # ## Inputs

@@ -47,11 +47,11 @@ sides = 2                       # welded sides; one of: 1, 2
 membrane_stress_range = 80.0    # MPa, nominal membrane stress range in the main plate; range: -1000 <= x <= 1000
 bending_stress_range = 20.0     # MPa, nominal bending stress range at the toe-side surface; range: -1000 <= x <= 1000
 cycles = 2000000.0              # total cycles of the histogram; range: 0 < x <= 1e12
-spectrum = [[1.0, 0.05], [0.75, 0.25], [0.5, 0.7]]   # rows (fraction of the range, fraction of the cycles)
+spectrum = [[1.0, 0.05], [0.75, 0.25], [0.5, 0.7]]   # rows (fraction of the range, fraction of the cycles); length: >= 1
 fat_class = 100.0               # MPa, hot-spot FAT class (non-load-carrying attachment); range: 36 <= x <= 160
 gamma_M = 1.15                  # partial factor on fatigue resistance; range: 1 <= x <= 2
 damage_limit = 0.5              # allowed Palmgren-Miner sum; range: 0 < x <= 1
-element_size = 0.25             # mm, element size at the toe; range: 0 < x <= 20
+element_size = 0.25             # mm, element size at the toe; range: 0 < x <= 20; rule: element_size <= min(plate_thickness, weld_leg) / 2
 effective_notch = False         # also run the effective-notch model (toe radius 1 mm)
 
 # %% [markdown]
