@@ -15,14 +15,24 @@ output folder::
 The final ``summary.json``::
 
     {"workbook": name, "toolkit_version": ..., "inputs_hash": ...,
-     "parameters": {...}, "values": {"name": {"value": ..., "unit": ...}},
+     "parameters": {...}, "inputs": {"files": {...}, "sn_data": ..., "toolkit_version": ...},
+     "values": {"name": {"value": ..., "unit": ...}},
      "checks": [{"name", "value", "limit", "utilization", "status"[, "unit"]}]}
 
 ``parameters`` are the values the run used (defaults plus given values, in the
-parameters-cell order); ``inputs_hash`` is ``inputs_hash`` of them.  If the
-workbook passed ``parameters=`` to ``Summary``, render checks they equal the
-run's parameters, so a hash printed in the workbook's footer is the one in
-summary.json.
+parameters-cell order); ``inputs`` is ``inputs_record`` of them (digests of
+the files and folders they name, of the S-N data, and the toolkit version),
+taken before the kernel starts; ``inputs_hash`` is ``inputs_hash(parameters,
+inputs)``.  If the workbook passed ``parameters=`` to ``Summary``, render
+checks they equal the run's parameters and that the record the kernel saw
+equals its own, so the hash printed in the workbook's footer
+(``report.footer``) is the one in summary.json.
+
+Re-running: given an executed notebook, render starts from the values it was
+rendered with (its summary record, else its injected cell); ``params_file``
+and ``params`` win, name by name.  ``params_file`` may be a run's
+summary.json: its ``parameters`` are used and its workbook must be this one.
+The notebook is validated (nbformat) before anything runs.
 
 Kernel working directory: :func:`render` runs the kernel in the output folder,
 so any file a workbook writes lands beside its report, never in
@@ -257,7 +267,7 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
     params : dict, optional
         Parameter values for this run; they override ``params_file``.
     params_file : str or Path, optional
-        A JSON object of parameter values.
+        A JSON object of parameter values, or a run's summary.json (its ``parameters``).
     timeout : float
         Seconds allowed per cell.
     progress : bool
