@@ -4,6 +4,7 @@ import numpy as np
 import pytest
 
 from toolkit import GaussField, Mesh, NodalField
+from toolkit.errors import InputError
 from toolkit.fem.models import rectangle_mesh
 
 SQ = np.array([[0, 0], [1, 0], [1, 1], [0, 1], [2, 0], [2, 1]], float)
@@ -103,3 +104,13 @@ def test_regions_and_used_nodes_are_computed_once_and_read_only():
     for a in (m.regions, m.used_nodes()):
         with pytest.raises(ValueError):
             a[0] = a[1]
+
+
+def test_node_index_beyond_32_bits_is_out_of_range_not_wrapped():
+    """A cell index of 2**32 + 3 must be refused as out of range, not narrowed
+    to 32 bits first and read as node 3."""
+    nodes = [[0, 0], [1, 0], [1, 1], [0, 1]]
+    with pytest.raises(InputError, match="out of range"):
+        Mesh(nodes, {"quad4": np.array([[0, 1, 2, 2**32 + 3]], dtype=np.int64)})
+    m = Mesh(nodes, {"quad4": np.array([[0, 1, 2, 3]], dtype=np.int64)})
+    assert m.block("quad4").cells.dtype == np.int32            # narrowed after the check

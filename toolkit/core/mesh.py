@@ -145,7 +145,7 @@ class Mesh:
             if conn.size and not np.issubdtype(conn.dtype, np.integer):
                 if not np.all(conn == np.round(conn)):
                     raise InputError(f"block {et.name}: cell node indices must be integers")
-            conn = conn.astype(np.int64 if n > 2**31 - 1 else np.int32)
+            conn = conn.astype(np.int64, copy=False)      # range-checked at 64 bits, narrowed after the check
             m = len(conn)
             if m == 0:
                 raise InputError(f"block {et.name} has no cells")
@@ -156,6 +156,8 @@ class Mesh:
                 eid = f" (element {int(cell_ids[name][c])})" if name in cell_ids else ""
                 raise InputError(f"block {et.name}, cell {c}{eid}: node index out of range 0..{n - 1} "
                                  f"({conn[c].tolist()}); {out.size} such cells")
+            if n <= 2**31 - 1:
+                conn = conn.astype(np.int32)
             srt = np.sort(conn, axis=1)
             rep = np.flatnonzero((srt[:, 1:] == srt[:, :-1]).any(axis=1))
             if rep.size:
