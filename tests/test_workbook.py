@@ -263,7 +263,7 @@ def test_changed_parameters_give_the_right_number_in_notebook_and_summary(two_re
     nb = nbformat.read(str(r.notebook), as_version=4)
     assert "area = 96 mm2\n" in _stdout(nb)            # 12 * 4 * 2, by hand (defaults give 30)
     s = json.loads(r.summary_path.read_text())
-    assert list(s) == ["workbook", "toolkit_version", "inputs_hash", "parameters", "inputs", "values", "checks"]
+    assert list(s) == ["workbook", "title", "toolkit_version", "inputs_hash", "parameters", "inputs", "values", "checks"]
     assert s["workbook"] == "tiny" and s["parameters"] == {"width": 12.0, "count": 4, "shape": "round"}
     assert s["values"]["area"] == {"value": 96.0, "unit": "mm2", "note": "width x count x shape factor"}
     assert s["checks"] == [{"name": "area limit", "value": 96.0, "limit": 100.0, "utilization": 0.96,

@@ -8,11 +8,18 @@ recover RESULTS --method l2|lumped|average|spr [--across-regions] --out nodal.cs
 export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] --out model.vtu
     Write the mesh, the recovered nodal field (point data) and the raw
     integration-point values (cell data) as a VTK XML unstructured grid.
-render WORKBOOK [--set name=value ...] [--params file.json] --out DIR
+render WORKBOOK [--set name=value ...] [--params file.json] [TITLE] [--pdf] --out DIR
     Execute a workbook with its parameters and write the executed notebook,
-    an offline HTML report and summary.json (toolkit.workbook).
-new TEMPLATE NAME --out DIR
+    an offline HTML report and summary.json (toolkit.workbook); with
+    ``--pdf`` also a PDF of the report (needs a headless Chromium).
+new TEMPLATE NAME [TITLE] --out DIR
     Start a workbook for a new component from one of the templates.
+
+TITLE: the report's title block, ``--project``, ``--document``,
+``--component``, ``--revision``, ``--prepared-by``, ``--checked-by``,
+``--date`` and ``--title-file FILE.json`` (an object with those keys,
+underscores for hyphens; the single options win).  A field not given shows as
+"not given".
 demo [--out reports] [--recovery-only]
     The recovery demo, then every workbook rendered with its defaults.
 
@@ -191,11 +198,20 @@ def _cmd_render(args) -> int:
         if k in given:
             raise ParameterError(f"--set {k} given twice")
         given[k] = v
+    if args.pdf:
+        from toolkit.workbook.pdf import require_chromium
+
+        require_chromium()                       # refuse before anything runs
     r = render(args.workbook, args.out, params=given, params_file=args.params, timeout=args.timeout,
-               progress=not args.quiet)
+               progress=not args.quiet, title=_title(args), title_file=args.title_file)
     checks = r.summary["checks"]
     fails = sum(c["status"] == "FAIL" for c in checks)
-    print(f"wrote {r.notebook}, {r.html}, {r.summary_path} in {r.seconds:.1f} s "
+    pdf = ""
+    if args.pdf:
+        from toolkit.workbook.pdf import write_pdf
+
+        pdf = f", {write_pdf(r.html, r.html.with_suffix('.pdf'))}"
+    print(f"wrote {r.notebook}, {r.html}{pdf}, {r.summary_path} in {r.seconds:.1f} s "
           f"(inputs {r.summary['inputs_hash']}; {len(checks)} checks, {fails} FAIL)")
     return 0
 
@@ -203,9 +219,26 @@ def _cmd_render(args) -> int:
 def _cmd_new(args) -> int:
     from toolkit.workbook.create import new_workbook
 
-    p = new_workbook(args.template, args.name, args.out)
+    p = new_workbook(args.template, args.name, args.out, title=_title(args), title_file=args.title_file)
     print(f"wrote {p}")
     return 0
+
+
+_TITLE_OPTIONS = ("project", "document", "component", "revision", "prepared_by", "checked_by", "date")
+
+
+def _title_options(p):
+    g = p.add_argument_group("title block (not parameters: they change no result; a field not given "
+                             "shows as 'not given')")
+    for key in _TITLE_OPTIONS:
+        g.add_argument("--" + key.replace("_", "-"), dest=f"title_{key}", metavar="TEXT",
+                       help=f"{key.replace('_', ' ')} in the title block")
+    g.add_argument("--title-file", metavar="FILE.json",
+                   help="JSON object of title fields (keys " + ", ".join(_TITLE_OPTIONS) + "); single options win")
+
+
+def _title(args) -> dict:
+    return {k: getattr(args, f"title_{k}") for k in _TITLE_OPTIONS if getattr(args, f"title_{k}") is not None}
 
 
 def _common(p, methods):
@@ -255,16 +288,20 @@ def _add_render(sub):
     p.add_argument("--out", required=True, metavar="DIR", help="output folder")
     p.add_argument("--timeout", type=float, default=600, metavar="S", help="seconds allowed per cell (600)")
     p.add_argument("--quiet", action="store_true", help="no progress bar")
+    p.add_argument("--pdf", action="store_true",
+                   help="also print the report to <name>.pdf (needs a headless Chromium, e.g. Debian 'chromium')")
+    _title_options(p)
     p.set_defaults(func=_cmd_render)
 
 
 def _add_new(sub):
     p = sub.add_parser("new", help="start a calculation from a template workbook",
                        description="Copy a template workbook to DIR/NAME.ipynb with outputs cleared "
-                                   "and the component set to NAME.")
+                                   "and the title fields given stored (the component defaults to NAME).")
     p.add_argument("template", help="template name in workbooks/")
     p.add_argument("name", help="component name (also the file name)")
     p.add_argument("--out", required=True, metavar="DIR", help="output folder")
+    _title_options(p)
     p.set_defaults(func=_cmd_new)
 
 

@@ -8,7 +8,11 @@ with partial safety factors on actions (γF) and resistance (γM).  Curve data
 live in ``data/sn_curves.json`` (source described in ``data/SOURCES.md``).
 
 Every check returns a :class:`CheckResult`: a small record with a readable
-``__repr__``, an HTML table for notebooks and ``to_dict()`` for JSON.
+``__repr__``, an HTML table for notebooks and ``to_dict()`` for JSON.  Its
+``working`` lists the steps of the check (:class:`Working`: formula, the
+values substituted, result, and the clause or source), so a checker can follow
+the numbers; the steps hold numbers and units and are formatted as text only
+when shown (by :mod:`toolkit.report.format`).
 """
 from __future__ import annotations
 
@@ -25,7 +29,7 @@ from toolkit.errors import InputError
 from toolkit.core import stress as _stress
 
 __all__ = [
-    "CAUTION", "CheckResult", "SNCurve", "sn_curve", "load_sn_data", "SN_DATA_PATH",
+    "CAUTION", "CheckResult", "Working", "SNCurve", "sn_curve", "load_sn_data", "SN_DATA_PATH",
     "THICKNESS_EXPONENTS", "thickness_factor", "miner_damage", "fatigue_check", "static_check",
 ]
 
@@ -41,6 +45,37 @@ IIW_2016 = "IIW recommendations (Hobbacher 2016, XIII-2460-13)"
 # ---------------------------------------------------------------------------
 # Check result
 # ---------------------------------------------------------------------------
+@dataclass(frozen=True)
+class Working:
+    """One step of a check's working: ``what: formula = substituted = result  [source]``.
+
+    ``substituted`` is the formula's right-hand side as a ``str.format``
+    template with ``{0}``, ``{1}``, ... for the ``values``, each a pair
+    ``(number or array, unit)``; ``result`` is a pair ``(number or array,
+    unit)`` or None.  Units ``"-"`` or ``"1"`` mean dimensionless.  The numbers
+    stay numbers here; ``repr`` (the step as one line of text) formats them
+    with :func:`toolkit.report.format.fmt_unit` to 4 significant figures.
+    """
+
+    what: str
+    formula: str
+    substituted: str = ""
+    values: tuple = ()
+    result: tuple | None = None
+    source: str = ""
+
+    def __repr__(self):
+        from toolkit.report.format import fmt_unit  # display delegates to the report layer
+
+        parts = [self.formula]
+        if self.substituted:
+            parts.append(self.substituted.format(*(fmt_unit(v, u, 4) for v, u in self.values)))
+        if self.result is not None:
+            parts.append(fmt_unit(self.result[0], self.result[1], 4))
+        line = f"{self.what}: " + " = ".join(parts)
+        return line + (f"  [{self.source}]" if self.source else "")
+
+
 @dataclass
 class CheckResult:
     """Outcome of one check: ``utilization = value / limit``, ``PASS`` if <= 1.
@@ -48,8 +83,9 @@ class CheckResult:
     Attributes
     ----------
     name, value, limit, unit (of value and limit), inputs (dict), notes (list
-    of str), cautions (a fixed sentence, :data:`CAUTION`); ``utilization`` and
-    ``status`` are derived.
+    of str), cautions (a fixed sentence, :data:`CAUTION`), working (list of
+    :class:`Working` steps, shown by :meth:`working_lines`); ``utilization``
+    and ``status`` are derived.
     """
 
     name: str
@@ -59,6 +95,7 @@ class CheckResult:
     inputs: dict = field(default_factory=dict)
     notes: list = field(default_factory=list)
     cautions: str = CAUTION
+    working: list = field(default_factory=list)
 
     def __post_init__(self):
         self.value = float(self.value)
@@ -80,13 +117,17 @@ class CheckResult:
     def units(self) -> str:
         return self.unit
 
+    def working_lines(self) -> list:
+        """The working as lines of text: formula, values substituted, result, source."""
+        return [repr(w) for w in self.working]
+
     def rows(self):
         """(label, text) rows of the table shown by ``__repr__`` and ``_repr_html_``."""
-        from toolkit.report.format import fmt  # display delegates to the report layer
+        from toolkit.report.format import fmt, fmt_unit  # display delegates to the report layer
 
-        u = f" {self.unit}" if self.unit and self.unit != "-" else ""
-        rows = [("value", f"{self.value:.6g}{u}"), ("limit", f"{self.limit:.6g}{u}"),
+        rows = [("value", fmt_unit(self.value, self.unit, 6)), ("limit", fmt_unit(self.limit, self.unit, 6)),
                 ("utilization", f"{self.utilization:.3f}"), ("status", self.status)]
+        rows += [("working", line) for line in self.working_lines()]
         rows += [(f"input: {k}", v.label() if isinstance(v, SNCurve) else fmt(v, 6)) for k, v in self.inputs.items()]
         rows += [("note", n) for n in self.notes]
         rows.append(("caution", self.cautions))
@@ -109,7 +150,7 @@ class CheckResult:
 
         return {"name": self.name, "value": self.value, "limit": self.limit, "utilization": self.utilization,
                 "status": self.status, "unit": self.unit, "inputs": plain(self.inputs, f"check {self.name!r} inputs"),
-                "notes": list(self.notes), "cautions": self.cautions}
+                "notes": list(self.notes), "working": self.working_lines(), "cautions": self.cautions}
 
 
 # ---------------------------------------------------------------------------
@@ -383,10 +424,37 @@ def fatigue_check(stress_ranges, cycles, curve, gamma_F=1.0, gamma_M=1.0, thickn
     if low.size:
         notes.append(f"rows {low.tolist()} have design lives below 1e4 cycles, outside the high-cycle range "
                      "the S-N curves cover (common practice)")
+    working = _fatigue_working(c, s, n, per, D, dl, float(gamma_F), float(gamma_M), float(thickness_factor))
     inputs = {"curve": c, "stress_ranges": s, "cycles": n, "gamma_F": float(gamma_F), "gamma_M": float(gamma_M),
               "thickness_factor": float(thickness_factor), "lives": per["life"], "damage_per_row": per["damage"],
               "source": IIW_2016}
-    return CheckResult(name=name, value=D, limit=dl, unit="-", inputs=inputs, notes=notes)
+    return CheckResult(name=name, value=D, limit=dl, unit="-", inputs=inputs, notes=notes, working=working)
+
+
+def _fatigue_working(c, s, n, per, D, dl, gF, gM, ft):
+    """The steps of :func:`fatigue_check`: curve, design FAT, design ranges, lives, damage sum, utilization."""
+    u = c.unit
+    fat_d = c.fat * ft / gM
+    beyond = "no damage below the knee" if c.m2 is None else f"m2 = {c.m2:g} beyond it"
+    lim_src = ("damage limit 0.5, IIW recommendation for welded joints under variable amplitude (from memory)"
+               if dl == 0.5 else "damage limit as given")
+    return [
+        Working("S-N curve", "N = N_ref (FAT / Δσ)^m1", "{0} × ({1} / Δσ)^{2}",
+                ((c.n_ref, "-"), (c.fat, u), (c.m1, "-")), None,
+                f"{c.name}: knee at {c.knee_cycles:.3g} cycles, {beyond}; {c.source}"),
+        Working("design FAT", "FAT_d = FAT × f(t) / γM", "{0} × {1} / {2}", ((c.fat, u), (ft, "-"), (gM, "-")),
+                (fat_d, u), f"{IIW_2016}: thickness correction f(t) = (t_ref/t_eff)^n, partial factor γM on "
+                            "resistance"),
+        Working("design ranges", "Δσ_d,i = γF × Δσ_i", "{0} × ({1})", ((gF, "-"), (s, u)), (per["design_range"], u),
+                f"{IIW_2016}: partial factor γF on actions"),
+        Working("lives", "N_i = N_ref (FAT_d / Δσ_d,i)^m", "{0} × ({1} / ({2}))^m", ((c.n_ref, "-"), (fat_d, u),
+                (per["design_range"], u)), (per["life"], "cycles"),
+                "m = m1 above the knee-point stress, beyond it as the curve says (inf: no damage)"),
+        Working("damage", "D = Σ n_i / N_i", "Σ ({0}) / ({1})", ((n, "cycles"), (per["life"], "cycles")), (D, "-"),
+                f"Palmgren–Miner sum, {IIW_2016}"),
+        Working("utilization", "u = D / D_lim", "{0} / {1}", ((D, "-"), (dl, "-")), (D / dl, "-"),
+                lim_src + "; PASS if u ≤ 1"),
+    ]
 
 
 # ---------------------------------------------------------------------------
@@ -433,5 +501,15 @@ def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mise
         notes.append(f"largest of {eq.size} values at index {idx}")
     if crit == "max principal":
         notes.append("max principal: the principal stress of largest magnitude (tension or compression)")
+    crit_src = ("von Mises (distortion-energy) yield criterion (common practice)" if crit == "von Mises" else
+                "largest-magnitude principal stress (common practice)")
+    working = [
+        Working("equivalent stress", f"σ_eq = max |σ_{crit}|",
+                f"largest of {eq.size} value{'s' if eq.size > 1 else ''}", (), (value, unit), crit_src),
+        Working("limit", "σ_allow = f_y / S", "{0} / {1}", ((fy, unit), (sf, "-")), (fy / sf, unit),
+                "allowable stress: yield strength over a safety factor (common practice)"),
+        Working("utilization", "u = σ_eq / σ_allow", "{0} / {1}", ((value, unit), (fy / sf, unit)),
+                (value / (fy / sf), "-"), "PASS if u ≤ 1"),
+    ]
     return CheckResult(name=name or f"static strength ({crit})", value=value, limit=fy / sf, unit=unit,
-                       inputs=inputs, notes=notes)
+                       inputs=inputs, notes=notes, working=working)

@@ -16,7 +16,11 @@ import numpy as np
 
 from toolkit.errors import InputError
 
-__all__ = ["fmt", "plain", "first_non_finite", "json_text"]
+__all__ = ["fmt", "fmt_unit", "unit_text", "plain", "first_non_finite", "json_text", "DIMENSIONLESS"]
+
+#: Units that mean "dimensionless"; shown as an en dash in a unit column, nothing after a number.
+DIMENSIONLESS = ("", "-", "1", "–")
+_SHOWN = 8  # array entries shown before the middle is elided
 
 
 def fmt(v, digits=4) -> str:
@@ -26,8 +30,10 @@ def fmt(v, digits=4) -> str:
     * integers (Python or numpy): every digit, ``12000000``;
     * other real numbers: ``f"{x:.{digits}g}"``; a zero of either sign is ``"0"``,
       NaN ``"nan"``, infinity ``"inf"``;
-    * numpy arrays: numpy's array text (at most 8 entries shown, the rest elided),
-      floating entries to ``digits`` significant figures;
+    * numpy arrays: the entries one by one by this same rule, separated by
+      ``", "`` (no brackets: never numpy's repr); more than 8 entries show the
+      first and last three around ``"…"``; an array of more than one dimension
+      is flattened after its shape, ``"(2×3) 1, 2, …"``;
     * anything else: ``str(v)``.
 
     >>> fmt(123.456789), fmt(123.456789, 6), fmt(-0.0), fmt(7), fmt("S355")
@@ -38,14 +44,34 @@ def fmt(v, digits=4) -> str:
     if isinstance(v, numbers.Integral):
         return str(int(v))
     if isinstance(v, np.ndarray):
-        if v.dtype.kind == "f":
-            return np.array2string(v, threshold=8, separator=" ",
-                                   formatter={"float_kind": lambda x: f"{x:.{digits}g}"})
-        return np.array2string(v, threshold=8)
+        flat = [fmt(x, digits) for x in v.ravel().tolist()] if v.size <= _SHOWN else \
+            [fmt(x, digits) for x in v.ravel()[:3].tolist()] + ["…"] + [fmt(x, digits) for x in v.ravel()[-3:].tolist()]
+        text = ", ".join(flat)
+        return text if v.ndim <= 1 else f"({'×'.join(str(n) for n in v.shape)}) {text}"
     if isinstance(v, numbers.Real):
         x = float(v)
         return "0" if x == 0 else f"{x:.{digits}g}"
     return str(v)
+
+
+def unit_text(unit) -> str:
+    """A unit as a table's unit column shows it: ``"–"`` for a dimensionless one
+    (``""``, ``"-"``, ``"1"`` or ``None``), else the unit itself.
+
+    >>> unit_text("MPa"), unit_text("1"), unit_text("-")
+    ('MPa', '–', '–')
+    """
+    return "–" if unit is None or str(unit).strip() in DIMENSIONLESS else str(unit)
+
+
+def fmt_unit(v, unit, digits=4) -> str:
+    """``v`` by :func:`fmt` followed by its unit; a dimensionless value has no unit after it.
+
+    >>> fmt_unit(60.0, "MPa"), fmt_unit(2.44023, "1"), fmt_unit(np.array([99.796, 74.847]), "MPa", 3)
+    ('60 MPa', '2.44', '99.8, 74.8 MPa')
+    """
+    u = unit_text(unit)
+    return fmt(v, digits) if u == "–" else f"{fmt(v, digits)} {u}"
 
 
 def plain(v, where="value"):

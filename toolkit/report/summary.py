@@ -34,7 +34,7 @@ from importlib.resources import files
 from pathlib import Path
 
 from toolkit.errors import InputError, WorkbookError
-from toolkit.report.format import first_non_finite, fmt, json_text, plain
+from toolkit.report.format import DIMENSIONLESS, first_non_finite, fmt, json_text, plain
 
 __all__ = ["Summary", "inputs_hash", "inputs_record", "input_dirs", "find_input", "input_path", "file_digest",
            "read_summary", "SHIPPED_DATA_DIR",
@@ -191,8 +191,11 @@ class Summary:
         self.checks = []
         self._digits = {}
 
-    def value(self, name, value, unit, note=None, digits=6):
+    def value(self, name, value, unit, note=None, digits=6, key=False):
         """Record one result: a finite number, a bool or a string, with its unit ("-" if none).
+
+        ``key=True`` marks a key design value (Kt, hot-spot stress, damage):
+        the report's verdict block at the top lists it beside the checks.
 
         ``digits``: significant figures of the displayed table only (the
         record keeps the full value); give 4 for a number whose later digits
@@ -209,6 +212,8 @@ class Summary:
         entry = {"value": v, "unit": unit}
         if note is not None:
             entry["note"] = str(note)
+        if key:
+            entry["key"] = True
         self.values[name] = entry
         self._digits[name] = int(digits)
 
@@ -249,11 +254,11 @@ class Summary:
     def _rows(self):
         rows = []
         for name, e in self.values.items():
-            unit = "" if e["unit"] in ("", "-") else f" {e['unit']}"
+            unit = "" if e["unit"] in DIMENSIONLESS else f" {e['unit']}"
             d = self._digits.get(name, 6)
             rows.append(("value", name, f"{fmt(e['value'], d)}{unit}", e.get("note", "")))
         for c in self.checks:
-            unit = "" if c.get("unit", "-") in ("", "-") else f" {c['unit']}"
+            unit = "" if c.get("unit", "-") in DIMENSIONLESS else f" {c['unit']}"
             d = self._digits.get(("check", c["name"]), 6)
             rows.append(("check", c["name"], f"{fmt(c['value'], d)}{unit} / {fmt(c['limit'], d)}{unit}",
                          f"utilization {c['utilization']:.3f}  {c['status']}"))

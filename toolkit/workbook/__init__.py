@@ -1,8 +1,9 @@
 """Layer 6: parameterised notebooks.  The parameters-cell grammar
-(``parameters``), notebook files and injection (``notebook``), execution in a
-fresh kernel with ``summary.json`` (``execute``), the offline HTML report
-(``html``), ``new`` and ``demo`` (``create``); the summary record itself
-lives in :mod:`toolkit.report.summary`."""
+(``parameters``), notebook files and injection (``notebook``), the run's
+title fields (``title``), execution in a fresh kernel with ``summary.json``
+(``execute``), the offline HTML report with the verdict filled in (``html``),
+its PDF (``pdf``), ``new`` and ``demo`` (``create``); the summary record, the
+title block and the verdict themselves live in :mod:`toolkit.report`."""
 from toolkit.errors import ParameterError, WorkbookError, WorkbookExecutionError
 from toolkit.report.summary import SUMMARY_METADATA_KEY, Summary, input_path, inputs_hash, inputs_record, read_summary
 from toolkit.workbook.create import demo, new_workbook

@@ -1,10 +1,14 @@
 """Starting and showing workbooks: :func:`new_workbook` copies a template
 for a new component, :func:`demo` renders workbooks with their defaults.
 
-Title block: the first markdown cell with a component field is the title
-block, a line ``Component: <text>`` (the label may be bold,
-``**Component:**``, or a list item) or a table row ``| Component | <text> |``.
-:func:`new_workbook` sets it.
+Title block: a workbook's first cell, tagged ``title``, shows the title
+block of the run (:func:`toolkit.report.title.title_block`); :func:`new_workbook`
+stores the title fields it is given (the component defaults to the new
+name) in the notebook's metadata, and every ``render`` of it shows them
+(:mod:`toolkit.workbook.title`).  A template without a title cell may
+instead carry a component field in its first markdown cell, a line
+``Component: <text>`` (the label may be bold, ``**Component:**``, or a list
+item) or a table row ``| Component | <text> |``; :func:`new_workbook` sets it.
 """
 from __future__ import annotations
 
@@ -18,8 +22,12 @@ from toolkit.workbook.execute import render
 from toolkit.workbook.notebook import (WORKBOOKS_DIR, clean_notebook, clear_outputs, drop_injected, ensure_ids,
                                        known_workbooks, parameters_cell, read_notebook, write_notebook)
 from toolkit.workbook.parameters import parse_parameters
+from toolkit.report.title import complete_title, read_title_file
+from toolkit.workbook.title import set_notebook_title
 
-__all__ = ["new_workbook", "demo", "known_workbooks"]
+__all__ = ["new_workbook", "demo", "known_workbooks", "TITLE_TAG"]
+
+TITLE_TAG = "title"
 
 
 _COMPONENT_LINE = re.compile(r"^(?P<head>[ \t]*(?:[-*+][ \t]+)?(?:\*\*|__)?Component(?:\*\*|__)?[ \t]*:[ \t]*"
@@ -39,12 +47,13 @@ def _set_component(source, name):
     return None
 
 
-def new_workbook(template, name, out_dir, source_dir=None, overwrite=False) -> Path:
+def new_workbook(template, name, out_dir, source_dir=None, overwrite=False, title=None, title_file=None) -> Path:
     """Start a calculation from a template workbook: ``out_dir/<name>.ipynb``.
 
-    The copy has every output cleared, no injected cell, and the title block's
-    component field set to ``name`` (see the module notes); the parameters
-    cell keeps the template's defaults, ready to fill.
+    The copy has every output cleared, no injected cell, and the title
+    fields given (``title_file``, then ``title``; the component defaults to
+    ``name``) stored for its title block (see the module notes); the
+    parameters cell keeps the template's defaults, ready to fill.
 
     Parameters
     ----------
@@ -54,6 +63,10 @@ def new_workbook(template, name, out_dir, source_dir=None, overwrite=False) -> P
         The component; also the file name.
     overwrite : bool
         Replace an existing file (default: refuse).
+    title : dict, optional
+        Title fields (project, document, component, revision, prepared_by, checked_by, date).
+    title_file : str or Path, optional
+        A JSON object of title fields.
     """
     folder = Path(source_dir) if source_dir is not None else WORKBOOKS_DIR
     known = known_workbooks(folder)
@@ -68,15 +81,22 @@ def new_workbook(template, name, out_dir, source_dir=None, overwrite=False) -> P
     nb = read_notebook(src)
     drop_injected(nb)
     parse_parameters(nb.cells[parameters_cell(nb, src.name)].source, src.name)
+    given = read_title_file(title_file) if title_file is not None else {}
+    given.update({k: v for k, v in (title or {}).items() if v is not None and str(v).strip()})
+    given.setdefault("component", name)
+    fields = complete_title(given)            # checks the field names
+    has_title_cell = any(TITLE_TAG in c.get("metadata", {}).get("tags", []) for c in nb.cells)
     for cell in nb.cells:
         if cell.cell_type == "markdown":
-            new = _set_component(cell.source, name)
+            new = _set_component(cell.source, fields["component"])
             if new is not None:
                 cell.source = new
                 break
     else:
-        raise WorkbookError(f"template {src.name} has no component field in a markdown cell "
-                            "(a line 'Component: ...' or a row '| Component | ... |')")
+        if not has_title_cell:
+            raise WorkbookError(f"template {src.name} has neither a cell tagged {TITLE_TAG!r} nor a component "
+                                "field in a markdown cell (a line 'Component: ...' or a row '| Component | ... |')")
+    set_notebook_title(nb, given)
     clear_outputs(nb)
     clean_notebook(nb)
     ensure_ids(nb)

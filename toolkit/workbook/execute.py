@@ -14,13 +14,16 @@ output folder::
 
 The final ``summary.json``::
 
-    {"workbook": name, "toolkit_version": ..., "inputs_hash": ...,
+    {"workbook": name, "title": {...}, "toolkit_version": ..., "inputs_hash": ...,
      "parameters": {...}, "inputs": {"files": {...}, "sn_data": ..., "toolkit_version": ...},
      "values": {"name": {"value": ..., "unit": ...}},
      "checks": [{"name", "value", "limit", "utilization", "status"[, "unit"]}]}
 
-``parameters`` are the values the run used (defaults plus given values, in the
-parameters-cell order); ``inputs`` is ``inputs_record`` of them (digests of
+``title`` holds the title block's fields (``"not given"`` where none was
+given; see :mod:`toolkit.report.title`), passed to the kernel in
+``STRESSPATH_TITLE``; it does not enter the hash.  ``parameters`` are the
+values the run used (defaults plus given values, in the parameters-cell
+order); ``inputs`` is ``inputs_record`` of them (digests of
 the files and folders they name, of the S-N data, and the toolkit version),
 taken before the kernel starts; ``inputs_hash`` is ``inputs_hash(parameters,
 inputs)``.  If the workbook passed ``parameters=`` to ``Summary``, render
@@ -45,6 +48,7 @@ The notebook libraries (nbformat, nbclient, tqdm) are imported when needed.
 """
 from __future__ import annotations
 
+import json
 import os
 import sys
 import time
@@ -55,11 +59,13 @@ from toolkit.errors import WorkbookError, WorkbookExecutionError
 from toolkit.report.format import json_text, plain
 from toolkit.report.summary import CALLER_DIR_ENV, WORKBOOK_DIR_ENV, inputs_hash, inputs_record, read_summary
 from toolkit.report.tables import HEADLESS_ENV
+from toolkit.report.title import TITLE_ENV
 from toolkit.workbook.html import notebook_html
 from toolkit.workbook.notebook import (clean_notebook, clear_outputs, drop_injected, ensure_ids, inject_parameters,
                                        parameters_cell, read_notebook, recorded_parameters, resolve_workbook,
                                        validate_notebook, write_notebook)
 from toolkit.workbook.parameters import parse_parameters, read_parameters_file, resolve_values
+from toolkit.workbook.title import run_title
 
 __all__ = ["render", "RenderResult", "workbook_dir", "WORKBOOK_DIR_ENV", "KERNELSPEC"]
 
@@ -125,6 +131,7 @@ class _Run:
     overrides: dict
     out: Path
     inputs: dict = None
+    title: dict | None = None
 
     @property
     def name(self):
@@ -203,6 +210,7 @@ def _execute(run: _Run, nb_path, timeout, progress) -> int:
     env[WORKBOOK_DIR_ENV] = str(run.path.parent)
     env[CALLER_DIR_ENV] = os.getcwd()    # the kernel finds imported files where render did (inputs hash)
     env[HEADLESS_ENV] = "1"          # no live widgets: see toolkit.report.headless
+    env[TITLE_ENV] = json.dumps(run.title or {})   # the title block: see toolkit.report.title
     try:
         client.execute(env=env)
     except (CellExecutionError, CellTimeoutError, DeadKernelError) as e:
@@ -246,15 +254,16 @@ def _write_report(run: _Run, html_path, sum_path) -> dict:
                             "render again")
     from toolkit import __version__
 
-    summary = {"workbook": run.name, "toolkit_version": __version__,
+    summary = {"workbook": run.name, "title": run.title, "toolkit_version": __version__,
                "inputs_hash": inputs_hash(run_params, run.inputs), "parameters": run_params,
                "inputs": run.inputs, "values": data["values"], "checks": data["checks"]}
-    html_path.write_text(notebook_html(run.nb, run.name), encoding="utf-8", newline="\n")
+    html_path.write_text(notebook_html(run.nb, run.name, summary, run.title), encoding="utf-8", newline="\n")
     sum_path.write_text(json_text(summary), encoding="utf-8", newline="\n")
     return summary
 
 
-def render(workbook, out_dir, params=None, params_file=None, timeout=600, progress=True) -> RenderResult:
+def render(workbook, out_dir, params=None, params_file=None, timeout=600, progress=True, title=None,
+           title_file=None) -> RenderResult:
     """Run a workbook with parameters and write ``<name>.ipynb``, ``<name>.html`` and ``summary.json``.
 
     Parameters
@@ -272,6 +281,13 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
         Seconds allowed per cell.
     progress : bool
         Show a progress bar over the code cells (stderr).
+    title : dict, optional
+        Title block fields (project, document, component, revision,
+        prepared_by, checked_by, date); they override ``title_file``, which
+        overrides those ``new`` stored in the notebook.  Not workbook
+        parameters: they change no result and no inputs hash.
+    title_file : str or Path, optional
+        A JSON object of title fields.
 
     Every given value is checked against the parameters cell before anything
     runs (:class:`ParameterError`, nothing written).  If a cell fails, the
@@ -281,6 +297,7 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
     """
     t0 = time.perf_counter()
     run = _check_run(workbook, out_dir, params, params_file)
+    run.title = run_title(run.nb, title, title_file)
     _inject(run)
     out, name = run.out, run.name
     out.mkdir(parents=True, exist_ok=True)

@@ -1,15 +1,12 @@
+# %% tags=["title", "remove-input"]
+from toolkit.report.title import title_block
+title_block("Stress assessment from imported results")
+
+# %% tags=["verdict", "remove-input"]
+from toolkit.report.verdict import verdict_placeholder
+verdict_placeholder()
+
 # %% [markdown]
-# # Stress assessment from imported results
-#
-# | | |
-# |---|---|
-# | Project | Demonstration project (invented) |
-# | Component | demo bracket |
-# | Revision | A |
-# | Prepared by | (name) |
-# | Checked by | (name) |
-# | Date | (date) |
-#
 # **Units: mm, N and MPa throughout.**
 #
 # Stresses computed by another finite-element code arrive at the elements' integration points, in the
@@ -23,10 +20,10 @@
 # edge and a lug of another part (region 2) at its right end. Its raw stresses are taken as the stress
 # range of one load cycle for the fatigue check.
 
-# %%
+# %% tags=["remove-input"]
 %matplotlib inline
 
-# %%
+# %% tags=["remove-input"]
 import numpy as np
 import matplotlib.pyplot as plt
 
@@ -250,12 +247,12 @@ fatigue
 # - Linearisation: ASME Boiler and Pressure Vessel Code, Section VIII Division 2, Annex 5-A.
 # - Grid Convergence Index: P. J. Roache (1994); procedure of I. B. Celik et al., J. Fluids Eng. 130 (2008).
 
-# %%
+# %% tags=["remove-input"]
 summary = Summary(parameters=params)
 summary.value("peak_stress", peak_vm, "MPa", note="largest nodal von Mises stress, L2 projection",
-              digits=4)
+              digits=4, key=True)
 summary.value("hot_spot_stress", hs_lin.value, "MPa", note="IIW type a, linear surface extrapolation",
-              digits=4)
+              digits=4, key=True)
 summary.value("hot_spot_stress_quadratic", hs_quad.value, "MPa", note="IIW type a, quadratic", digits=4)
 summary.value("membrane_stress", lin.membrane, "MPa", note="through-thickness linearisation at the toe",
               digits=4)
@@ -268,5 +265,5 @@ summary.check(static, digits=4)
 summary.check(fatigue, digits=4)
 summary.save()
 
-# %%
+# %% tags=["remove-input"]
 print(report.footer(params))

@@ -1,15 +1,12 @@
+# %% tags=["title", "remove-input"]
+from toolkit.report.title import title_block
+title_block("Plate with a central hole in tension")
+
+# %% tags=["verdict", "remove-input"]
+from toolkit.report.verdict import verdict_placeholder
+verdict_placeholder()
+
 # %% [markdown]
-# # Plate with a central hole in tension
-#
-# | | |
-# |---|---|
-# | Project | Demonstration project (invented) |
-# | Component | plate with hole |
-# | Revision | A |
-# | Prepared by | (name) |
-# | Checked by | (name) |
-# | Date | (date) |
-#
 # **Units: mm, N and MPa throughout.**
 #
 # A flat plate of width W and length L with a central circular hole of diameter d carries a remote
@@ -19,10 +16,10 @@
 # finite-width formula and the Kirsch solution, the stresses along the ligament and around the hole,
 # the mesh adequacy, and a static strength check.
 
-# %%
+# %% tags=["remove-input"]
 %matplotlib inline
 
-# %%
+# %% tags=["remove-input"]
 import numpy as np
 import matplotlib.pyplot as plt
 
@@ -197,13 +194,13 @@ static
 #   D. F. Pilkey, Peterson's Stress Concentration Factors, 3rd ed. (2008).
 # - Grid Convergence Index: P. J. Roache (1994); procedure of I. B. Celik et al., J. Fluids Eng. 130 (2008).
 
-# %%
+# %% tags=["remove-input"]
 summary = Summary(parameters=params)
-summary.value("kt_net", kt_net, "1", note="peak sxx / net-section stress, L2 projection", digits=4)
+summary.value("kt_net", kt_net, "1", note="peak sxx / net-section stress, L2 projection", digits=4, key=True)
 summary.value("kt_gross", kt_gross, "1", note="peak sxx / gross stress, L2 projection", digits=4)
 summary.value("kt_net_heywood", heywood_kt_net(d_over_w), "1", note="Heywood (1952)")
 summary.value("peak_stress", float(nodal.component("sxx")[peak_node]), "MPa", note="sxx at the hole edge",
-              digits=4)
+              digits=4, key=True)
 summary.value("peak_von_mises", peak_vm, "MPa", digits=4)
 summary.value("peak_extrapolated", conv.extrapolated, "MPa", note="Richardson extrapolation", digits=4)
 summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh", digits=4)
@@ -211,5 +208,5 @@ summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative e
 summary.check(static, digits=4)
 summary.save()
 
-# %%
+# %% tags=["remove-input"]
 print(report.footer(params))

@@ -1,15 +1,12 @@
+# %% tags=["title", "remove-input"]
+from toolkit.report.title import title_block
+title_block("Shoulder fillet: stepped flat bar or stepped shaft")
+
+# %% tags=["verdict", "remove-input"]
+from toolkit.report.verdict import verdict_placeholder
+verdict_placeholder()
+
 # %% [markdown]
-# # Shoulder fillet: stepped flat bar or stepped shaft
-#
-# | | |
-# |---|---|
-# | Project | Demonstration project (invented) |
-# | Component | stepped bar |
-# | Revision | A |
-# | Prepared by | (name) |
-# | Checked by | (name) |
-# | Date | (date) |
-#
 # **Units: mm, N and MPa throughout.**
 #
 # A bar steps from a large width (or diameter) D down to a small width d through a fillet of radius r.
@@ -19,10 +16,10 @@
 # stress concentration factor with the handbook fit, derives a fatigue notch factor from Peterson's
 # notch sensitivity, and checks static strength.
 
-# %%
+# %% tags=["remove-input"]
 %matplotlib inline
 
-# %%
+# %% tags=["remove-input"]
 import numpy as np
 import matplotlib.pyplot as plt
 
@@ -205,19 +202,19 @@ static
 #   (1992).
 # - Grid Convergence Index: P. J. Roache (1994); procedure of I. B. Celik et al., J. Fluids Eng. 130 (2008).
 
-# %%
+# %% tags=["remove-input"]
 summary = Summary(parameters=params)
-summary.value("kt", kt, "1", note="peak fillet stress / nominal, L2 projection", digits=4)
+summary.value("kt", kt, "1", note="peak fillet stress / nominal, L2 projection", digits=4, key=True)
 summary.value("kt_handbook", kt_fit, "1", note="Pilkey & Pilkey fit (NaN outside its range)")
-summary.value("peak_stress", peak, "MPa", note="largest stress along the fillet surface", digits=4)
+summary.value("peak_stress", peak, "MPa", note="largest stress along the fillet surface", digits=4, key=True)
 summary.value("peak_location_x", float(where[0]), "mm", digits=4)
 summary.value("peak_location_y", float(where[1]), "mm", digits=4)
-summary.value("kf", kf, "1", note="fatigue notch factor, Peterson q", digits=4)
+summary.value("kf", kf, "1", note="fatigue notch factor, Peterson q", digits=4, key=True)
 summary.value("peak_von_mises", peak_vm, "MPa", digits=4)
 summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh", digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
 summary.check(static, digits=4)
 summary.save()
 
-# %%
+# %% tags=["remove-input"]
 print(report.footer(params))

@@ -1,15 +1,12 @@
+# %% tags=["title", "remove-input"]
+from toolkit.report.title import title_block
+title_block("Weld toe: structural hot-spot stress and fatigue check")
+
+# %% tags=["verdict", "remove-input"]
+from toolkit.report.verdict import verdict_placeholder
+verdict_placeholder()
+
 # %% [markdown]
-# # Weld toe: structural hot-spot stress and fatigue check
-#
-# | | |
-# |---|---|
-# | Project | Demonstration project (invented) |
-# | Component | transverse attachment |
-# | Revision | A |
-# | Prepared by | (name) |
-# | Checked by | (name) |
-# | Date | (date) |
-#
 # **Units: mm, N and MPa throughout.**
 #
 # A main plate of thickness t carries a transverse attachment joined by fillet welds on one side (T
@@ -21,10 +18,10 @@
 # correction and a stress-range histogram; optionally it adds an effective-notch model (toe rounded to
 # the 1 mm reference radius).
 
-# %%
+# %% tags=["remove-input"]
 %matplotlib inline
 
-# %%
+# %% tags=["remove-input"]
 import numpy as np
 import matplotlib.pyplot as plt
 
@@ -263,10 +260,10 @@ checks[0]
 #   (1992).
 # - Grid Convergence Index: P. J. Roache (1994); procedure of I. B. Celik et al., J. Fluids Eng. 130 (2008).
 
-# %%
+# %% tags=["remove-input"]
 summary = Summary(parameters=params)
 summary.value("hot_spot_stress", hs_lin.value, "MPa", note="IIW type a, linear surface extrapolation, L2",
-              digits=4)
+              digits=4, key=True)
 summary.value("hot_spot_stress_quadratic", hs_quad.value, "MPa", note="IIW type a, quadratic, L2", digits=4)
 summary.value("membrane_stress", lin.membrane, "MPa", note="through-thickness linearisation at the toe",
               digits=4)
@@ -278,12 +275,12 @@ summary.value("thickness_factor", f_t, "1")
 summary.value("gci_fine", conv.gci_fine, "1", note="hot-spot stress, Roache's GCI", digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
 if notch is not None:
-    summary.value("effective_notch_stress", notch, "MPa", digits=4)
+    summary.value("effective_notch_stress", notch, "MPa", digits=4, key=True)
 summary.value("utilization", max(c.utilization for c in checks), "1", note="largest of the checks",
               digits=4)
 for c in checks:
     summary.check(c, digits=4)
 summary.save()
 
-# %%
+# %% tags=["remove-input"]
 print(report.footer(params))
