@@ -266,3 +266,21 @@ def test_hot_spot_read_out_crossing_a_region_boundary_is_warned():
     assert q.warnings == []
     with pytest.raises(ValueError, match="regions"):
         hot_spot_stress(lambda x: 100.0 + 0 * x, thickness=10.0, regions=[1, 1])
+
+
+def test_demo_bracket_region_2_starts_at_the_toe():
+    """data/demo_bracket documents region 2 (the lug) as x > 100 mm, where the from_results workbook
+    puts the toe: every cell of region 2 lies at x >= 100 and every cell of region 1 at x <= 100, so the
+    hot-spot read-out from the toe towards -x stays in region 1 (no crossing warning)."""
+    from pathlib import Path
+    import toolkit as tk
+    mesh, field = tk.read_results(Path(__file__).resolve().parents[1] / "data" / "demo_bracket")
+    b = mesh.blocks[0]
+    x = mesh.nodes[b.cells][..., 0]
+    assert x[b.regions == 2].min() == pytest.approx(100.0, abs=1e-9)
+    assert x[b.regions == 1].max() == pytest.approx(100.0, abs=1e-9)
+    ds = np.linspace(0.0, 15.0, 151)
+    surf = tk.sample(tk.project_l2(field), tk.line((100.0, 40.0), (85.0, 40.0)), distances=ds)
+    assert np.all(surf.cell_region[1:] == 1)
+    r = hot_spot_stress((ds, surf["sxx"]), thickness=10.0, rule="a-quadratic", regions=surf.cell_region)
+    assert r.warnings == []
