@@ -5,7 +5,11 @@ Geometry (mm): bar 120 x 40, notch radius 8 centred on the upper edge at
 x = 60; the last 20 mm (x > 100) are a second region (a lug of another part),
 so region-wise recovery has a boundary to respect.  Mesh: 320 quad8 elements
 from a mapped grid smoothed by a discrete Laplace equation (element edges
-follow the notch arc).
+follow the notch arc).  Right of the notch the edge nodes are spaced so that
+a grid line falls on x = 100 (7 elements over 68..100 mm, 5 over 100..120 mm):
+the region boundary lies where the description puts it, at the workbook's
+toe point, and not at the nearest uniform grid line (98.33 mm); that grid
+line is held straight through the depth while the lattice is smoothed.
 
 Values (MPa) at the 3x3 Gauss points: the Kirsch (1898) field of a circular
 hole of the notch radius centred on the notch, under a remote tension of
@@ -43,22 +47,26 @@ def _boundary(n_side, n_arc):
     u_side = np.arange(n_side) / n_side
     u_arc = np.arange(n_arc) / n_arc
     th = np.pi * (1 + u_arc)
+    n_lug = round(n_side * (L - LUG_X) / (L - XC - R))        # elements on the lug, a grid line at LUG_X
+    n_in = n_side - n_lug
+    x_right = np.r_[XC + R + np.arange(n_in) / n_in * (LUG_X - XC - R), LUG_X + np.arange(n_lug) / n_lug * (L - LUG_X)]
     top = np.r_[np.c_[u_side * (XC - R), np.full(n_side, H)],
                 np.c_[XC + R * np.cos(th), H + R * np.sin(th)],
-                np.c_[XC + R + u_side * (L - XC - R), np.full(n_side, H)], [[L, H]]]
-    bot = np.c_[np.r_[u_side * (XC - R), XC - R + 2 * R * u_arc, XC + R + u_side * (L - XC - R), L],
+                np.c_[x_right, np.full(n_side, H)], [[L, H]]]
+    bot = np.c_[np.r_[u_side * (XC - R), XC - R + 2 * R * u_arc, x_right, L],
                 np.zeros(len(top))]
     angle = np.r_[np.full(n_side, np.nan), th, np.full(n_side, np.nan), np.nan]
     angle[n_side + n_arc] = 2 * np.pi            # the right end of the arc
     return top, bot, angle
 
 
-def _smoothed_lattice(top, bot, tb, sweeps=4000):
+def _smoothed_lattice(top, bot, tb, sweeps=4000, pin=None):
     """Corner lattice (i along the bar, j up) with fixed boundary nodes and
     interior nodes solving the discrete Laplace equation x_ss + x_tt = 0 in
     the computational plane (uniform s, graded t), so that grid lines fan out
     from the 90-degree corners where the notch meets the upper edge while
-    keeping the grading towards that edge."""
+    keeping the grading towards that edge.  ``pin = (i, x)`` keeps grid
+    column ``i`` on the straight line at ``x`` (the region boundary)."""
     P = (1 - tb[None, :, None]) * bot[:, None, :] + tb[None, :, None] * top[:, None, :]
     t = tb * (len(tb) - 1)
     hm, hp = np.diff(t)[:-1], np.diff(t)[1:]              # spacing below / above interior rows
@@ -67,6 +75,8 @@ def _smoothed_lattice(top, bot, tb, sweeps=4000):
         Q = P.copy()
         Q[1:-1, 1:-1] = ((P[2:, 1:-1] + P[:-2, 1:-1]) + cp[None, :, None] * P[1:-1, 2:]
                          + cm[None, :, None] * P[1:-1, :-2]) / (2 + cp + cm)[None, :, None]
+        if pin is not None:
+            Q[pin[0], :, 0] = pin[1]
         P = Q
     return P
 
@@ -75,7 +85,8 @@ def bracket_mesh(n_side=12, n_arc=16, ny=8):
     top, bot, angle = _boundary(n_side, n_arc)
     nx = 2 * n_side + n_arc
     tb = 1.0 - (1.0 - np.arange(ny + 1) / ny) ** 1.5           # finer towards the notched edge
-    C = _smoothed_lattice(top, bot, tb)                        # (nx+1, ny+1, 2)
+    i_lug = int(np.flatnonzero(np.isclose(top[:, 0], LUG_X) & np.isclose(top[:, 1], H))[0])
+    C = _smoothed_lattice(top, bot, tb, pin=(i_lug, LUG_X))     # (nx+1, ny+1, 2)
     cid = lambda i, j: i * (ny + 1) + j
     I, J = (a.ravel() for a in np.meshgrid(np.arange(nx), np.arange(ny), indexing="xy"))
     corners = np.stack([cid(I, J), cid(I + 1, J), cid(I + 1, J + 1), cid(I, J + 1)], 1)

@@ -187,3 +187,46 @@ def test_check_result_renders_and_serialises():
     assert json.loads(json.dumps(s.to_dict()))["status"] == "PASS" and s.units == "MPa"
     with pytest.raises(ValueError, match="limit must be positive"):
         CheckResult("x", 1.0, 0.0, "MPa")
+
+
+# -- static check at a free edge: equilibrium S n = 0 at a traction-free surface (closed form)
+def test_surface_states_satisfy_equilibrium_at_a_free_edge():
+    from toolkit.assess.checks import surface_states
+    from toolkit.core.stress import von_mises
+    rng = np.random.default_rng(3)
+    S = rng.normal(size=(20, 3)) * 50.0                       # (sxx, syy, sxy) with spurious snn, snt
+    a = rng.uniform(0, 2 * np.pi, 20)
+    t = np.c_[np.cos(a), np.sin(a)]
+    n = np.c_[-t[:, 1], t[:, 0]]
+    out = surface_states(S, ("sxx", "syy", "sxy"), t)
+    T = np.stack([np.c_[out[:, 0], out[:, 2]], np.c_[out[:, 2], out[:, 1]]], axis=1)
+    T0 = np.stack([np.c_[S[:, 0], S[:, 2]], np.c_[S[:, 2], S[:, 1]]], axis=1)
+    assert np.allclose(np.einsum("pij,pj->pi", T, n), 0.0, atol=1e-12)         # traction on the edge is zero
+    stt = np.einsum("pi,pij,pj->p", t, T0, t)
+    assert np.allclose(np.einsum("pi,pij,pj->p", t, T, t), stt)               # tangential stress kept
+    assert np.allclose(von_mises(out, ("sxx", "syy", "sxy")), np.abs(stt))    # plane stress: vm = |stt|
+    # rows without a tangent are left alone; the hoop stress of an axisymmetric state is kept
+    t2 = t.copy()
+    t2[0] = np.nan
+    assert np.array_equal(surface_states(S, ("sxx", "syy", "sxy"), t2)[0], S[0])
+    A = np.c_[S, np.full(20, 30.0)]
+    out = surface_states(A, ("srr", "szz", "srz", "shoop"), t)
+    assert np.allclose(out[:, 3], 30.0)
+    s = np.einsum("pi,pij,pj->p", t, T0, t)
+    assert np.allclose(von_mises(out, ("srr", "szz", "srz", "shoop")), np.sqrt(s**2 - 30.0 * s + 900.0))
+
+
+def test_static_check_uses_the_surface_state_at_free_edges():
+    """A state on a free edge whose smoothed field carries a spurious normal stress: the check
+    takes the tangential stress alone (equilibrium), interior points keep their full state."""
+    from toolkit.assess.checks import free_edge_tangents
+    nodes = np.array([[0.0, 0.0], [2.0, 0.0], [1.0, 0.0], [0.0, 1.0]])
+    t = free_edge_tangents(nodes, [[0, 1, 2]])
+    assert np.allclose(t[:3], [[1.0, 0.0]] * 3) and np.all(np.isnan(t[3]))
+    S = np.array([[200.0, 20.0, 0.0], [0.0, 0.0, 0.0], [0.0, 0.0, 0.0], [150.0, 0.0, 0.0]])
+    comps = ("sxx", "syy", "sxy")
+    r = static_check(S, 355.0, 1.0, components=comps, tangents=t)
+    assert r.value == pytest.approx(200.0) and r.inputs["free_edge_points"] == 3
+    assert any("equilibrium" in n for n in r.notes)
+    plain = static_check(S, 355.0, 1.0, components=comps)
+    assert plain.value == pytest.approx(np.sqrt(200.0**2 - 200.0 * 20.0 + 20.0**2))  # spurious syy counted

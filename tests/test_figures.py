@@ -19,6 +19,9 @@ Figures covered (workbook: figure -> test):
   from_results: mesh with paths and toe, paths per recovery method -> test_from_results_*
   all four: raw integration-point curve -> test_raw_curve_*
   all four: error indicator map -> test_indicator_map_*
+  all: units on colour bars and path axes, legends outside, path start marked, distinct method
+      styles, zoom on the critical region -> test_colour_bars_*, test_model_legend_*, test_path_start_*,
+      test_overlaid_methods_*, test_zoom_panel_*
 The workbooks draw no convergence plot and no S-N plot (the convergence
 study and the checks are shown as tables, compared by nbval).
 """
@@ -627,3 +630,78 @@ def test_indicator_map_colours_each_cell_by_its_zz_error(name):
     xs, ys = corners[..., 0], corners[..., 1]
     area = 0.5 * np.abs((xs * np.roll(ys, -1, 1) - np.roll(xs, -1, 1) * ys).sum(axis=1))
     assert np.allclose(np.asarray(pc2.get_array()), err / np.sqrt(area), rtol=0.02)
+
+
+# ---------------------------------------------------------------------------
+# Units, legends outside the model, the path's start, distinguishable methods, the zoom
+# (what a checker reads off a figure; common practice)
+# ---------------------------------------------------------------------------
+def test_colour_bars_and_path_axes_carry_units():
+    model, field, recovered = solved("plate_with_hole")
+    nodal = recovered["L2 projection"]
+    fig = plots.raw_vs_smoothed(field, nodal, "sxx")
+    bars = [a for a in fig.axes if a.get_ylabel().startswith("sxx")]
+    assert len(bars) == 2 and all(a.get_ylabel() == "sxx (MPa)" for a in bars)
+    fig = plots.raw_vs_smoothed(field, nodal, "sxx", unit="N/mm2")
+    assert sum(a.get_ylabel() == "sxx (N/mm2)" for a in fig.axes) == 2
+    ax = plot_path_comparison(tk.line((0.0, 12.5), (0.0, 50.0)), recovered, field, "sxx")
+    assert ax.get_xlabel().endswith("(mm)") and ax.get_ylabel() == "sxx (MPa)"
+    ind = tk.error_indicator(field, recovered["patch recovery (SPR)"])
+    ax = ind.plot()
+    assert ax.figure.axes[-1].get_ylabel() == "||e||_K (MPa mm)"
+
+
+def test_model_legend_lies_outside_the_model_axes():
+    model = fillet_model()
+    ax = model.plot()
+    fig = ax.figure
+    fig.canvas.draw()
+    leg = ax.get_legend().get_window_extent()
+    box = ax.get_window_extent()
+    assert leg.x0 >= box.x1  # to the right of the axes: it covers no part of the model
+
+
+def test_path_start_is_marked_at_distance_zero():
+    _, ax = plt.subplots()
+    p = path_from_spec(BRACKET["paths"][0])
+    start, end = plots.mark_path(ax, p, label="notch ligament")
+    assert np.allclose(start, BRACKET["paths"][0]["start"]) and np.allclose(end, BRACKET["paths"][0]["end"])
+    (dot,) = [ln for ln in ax.get_lines() if ln.get_label() == "_start"]
+    assert np.allclose(dot.get_xydata(), [BRACKET["paths"][0]["start"]]) and dot.get_marker() == "o"
+    assert any(t.get_text() == "0 mm" and np.allclose(t.xy, start) for t in ax.texts)
+    # an arc starts at its first angle: the hole edge of the plate from the load axis (0 degrees)
+    start, _ = plots.mark_path(ax, tk.arc((0.0, 0.0), 12.5, 0.0, 90.0))
+    assert np.allclose(start, [12.5, 0.0])
+
+
+def test_overlaid_methods_have_distinct_consistent_styles():
+    model, field, recovered = solved("shoulder_fillet")
+    p = tk.edge_path(model.mesh, model.edges["fillet"])
+    ax = plot_path_comparison(p, recovered, field, "stt")
+    lines = method_lines(ax)
+    assert set(lines) == set(recovered)
+    styles = {(ln.get_linestyle(), ln.get_marker()) for ln in lines.values()}
+    assert len(styles) == len(lines)  # no two methods drawn alike
+    for name, ln in lines.items():
+        assert ln.get_marker() == plots.METHOD_STYLES[name]["marker"]
+    # the same method keeps its style in another figure
+    ax2 = plot_path_comparison(p, {"patch recovery (SPR)": recovered["patch recovery (SPR)"]}, None, "stt")
+    ln2 = method_lines(ax2)["patch recovery (SPR)"]
+    assert (ln2.get_linestyle(), ln2.get_marker(), ln2.get_color()) == \
+        (lines["patch recovery (SPR)"].get_linestyle(), "^", lines["patch recovery (SPR)"].get_color())
+    ax.figure.canvas.draw()
+    assert ax.get_legend().get_window_extent().x0 >= ax.get_window_extent().x1
+
+
+def test_zoom_panel_frames_the_critical_region_and_marks_the_path():
+    model, field, recovered = solved("plate_with_hole")
+    a = PLATE["hole_diameter"] / 2
+    hole = tk.arc((0.0, 0.0), a, 0.0, 90.0)
+    fig = plots.contour_with_zoom(recovered["L2 projection"], "sxx", (0.0, a), 1.6 * a, paths={"hole edge": hole})
+    main, zoom = [ax for ax in fig.axes if ax.get_title()][:2]
+    assert np.allclose(zoom.get_xlim(), [-1.6 * a, 1.6 * a]) and np.allclose(zoom.get_ylim(), [-0.6 * a, 2.6 * a])
+    assert main.get_xlim()[1] - main.get_xlim()[0] > 3 * (zoom.get_xlim()[1] - zoom.get_xlim()[0])
+    for ax in (main, zoom):
+        (dot,) = [ln for ln in ax.get_lines() if ln.get_label() == "_start"]
+        assert np.allclose(dot.get_xydata(), [[a, 0.0]])
+    assert sum(a.get_ylabel() == "sxx (MPa)" for a in fig.axes) == 2

@@ -214,7 +214,8 @@ def test_pure_bending_and_components():
     m, b, pk = closed_form(10.0, 2.0, 0.1, t)
     assert np.allclose([lin.membrane[2], lin.bending[2]], [m, b]) and np.allclose(lin.peak[:, 2], pk)
     assert lin.structural.shape == (2, 3) and lin.components == ("sxx", "syy", "sxy")
-    assert "membrane" in repr(lin) and lin.to_dict()["components"] == ["sxx", "syy", "sxy"]
+    assert "structural (membrane + bending)" in repr(lin) and "membrane+bending" not in repr(lin)
+    assert lin.to_dict()["components"] == ["sxx", "syy", "sxy"]
 
 
 def test_linearize_bad_input():
@@ -226,3 +227,60 @@ def test_linearize_bad_input():
         linearize([0.0, 1.0, 2.0], [1.0, 2.0])
     with pytest.raises(ValueError, match="integration must be"):
         linearize([0.0, 1.0], [1.0, 2.0], integration="simpson")
+
+
+# -- a read-out window that crosses a region boundary (common practice: the read-outs of one
+# surface extrapolation must lie in one part; a two-region mesh built here, boundary at x = 6 mm)
+def _two_region_surface(toe_x, direction=-1.0):
+    import toolkit as tk
+    from toolkit.core.grid import rectangle_mesh
+    from helpers import gauss_field_of
+    mesh = rectangle_mesh("quad4", 24, 2, size=(24.0, 10.0), regions=lambda c: np.where(c[:, 0] > 6.0, 2, 1))
+    nodal = tk.project_l2(gauss_field_of(mesh, lambda x: 200.0 - 5.0 * x[..., :1], comps=["sxx"]))
+    ds = np.linspace(0.0, 15.0, 151)
+    surf = tk.sample(nodal, tk.line((toe_x, 10.0), (toe_x + 15.0 * direction, 10.0)), distances=ds)
+    return ds, surf
+
+
+def test_path_samples_carry_their_cells_region():
+    ds, surf = _two_region_surface(16.0)
+    assert set(np.unique(surf.cell_region)) == {1, 2}
+    x = 16.0 - ds
+    assert np.all(surf.cell_region[x < 5.99] == 1) and np.all(surf.cell_region[x > 6.01] == 2)
+
+
+def test_hot_spot_read_out_crossing_a_region_boundary_is_warned():
+    # toe at x = 16.55, boundary at x = 6 (10.55 mm from the toe; samples every 0.1 mm), t = 8 mm:
+    # the a-linear window 0..8 mm stays in region 2, the a-quadratic window 0..11.2 mm crosses it
+    ds, surf = _two_region_surface(16.55)
+    lin = hot_spot_stress((ds, surf["sxx"]), thickness=8.0, rule="a-linear", regions=surf.cell_region)
+    quad = hot_spot_stress((ds, surf["sxx"]), thickness=8.0, rule="a-quadratic", regions=surf.cell_region)
+    assert len(quad.warnings) == 1 and "region boundary at 10.6 mm" in quad.warnings[0]
+    assert "region 2 to 1" in quad.warnings[0]
+    assert lin.warnings == []
+    # without the regions the same read-out is silent (the warning comes from the regions alone)
+    assert hot_spot_stress((ds, surf["sxx"]), thickness=8.0, rule="a-quadratic").warnings == []
+    # the toe itself on the boundary (x = 6) with the window inside region 2: no warning
+    ds, surf = _two_region_surface(6.0, direction=1.0)
+    q = hot_spot_stress((ds, surf["sxx"]), thickness=10.0, rule="a-quadratic", regions=surf.cell_region)
+    assert q.warnings == []
+    with pytest.raises(ValueError, match="regions"):
+        hot_spot_stress(lambda x: 100.0 + 0 * x, thickness=10.0, regions=[1, 1])
+
+
+def test_demo_bracket_region_2_starts_at_the_toe():
+    """data/demo_bracket documents region 2 (the lug) as x > 100 mm, where the from_results workbook
+    puts the toe: every cell of region 2 lies at x >= 100 and every cell of region 1 at x <= 100, so the
+    hot-spot read-out from the toe towards -x stays in region 1 (no crossing warning)."""
+    from pathlib import Path
+    import toolkit as tk
+    mesh, field = tk.read_results(Path(__file__).resolve().parents[1] / "data" / "demo_bracket")
+    b = mesh.blocks[0]
+    x = mesh.nodes[b.cells][..., 0]
+    assert x[b.regions == 2].min() == pytest.approx(100.0, abs=1e-9)
+    assert x[b.regions == 1].max() == pytest.approx(100.0, abs=1e-9)
+    ds = np.linspace(0.0, 15.0, 151)
+    surf = tk.sample(tk.project_l2(field), tk.line((100.0, 40.0), (85.0, 40.0)), distances=ds)
+    assert np.all(surf.cell_region[1:] == 1)
+    r = hot_spot_stress((ds, surf["sxx"]), thickness=10.0, rule="a-quadratic", regions=surf.cell_region)
+    assert r.warnings == []

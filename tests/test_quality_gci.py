@@ -55,7 +55,7 @@ def test_diverging_sequence_is_flagged():
 
 def test_small_ratio_and_order_warnings():
     h = np.array([1.0, 1.1, 1.21])
-    r = grid_convergence(5.0 + 0.3 * h**2, h, formal_order=1.0)
+    r = grid_convergence(5.0 + 0.3 * h**2, h, formal_order=0.9)  # 2 outside (0.45, 1.8)
     assert any("below 1.3" in w for w in r.warnings)
     assert any("formal order" in w for w in r.warnings)
 
@@ -77,3 +77,35 @@ def test_result_repr_and_dict():
     assert "GCI fine" in repr(r) and "2.175%" in repr(r)
     d = json.loads(json.dumps(r.to_dict()))
     assert np.isclose(d["gci_fine"], r.gci_fine)
+
+
+# Roache (1998), Verification and Validation in Computational Science and Engineering, ch. 5
+# (restated by Celik et al. 2008 and by Roache's GCI papers): when the observed order is
+# unreasonable, compute the GCI with the formal order and the safety factor Fs = 3.
+def test_roache_fallback_order_outside_range():
+    h = np.array([1.0, 2.0, 4.0])
+    f = 5.0 + 0.3 * h**4  # observed order 4, formal 1: outside (0.5, 2) x formal
+    r = grid_convergence(f, h, formal_order=1.0)
+    assert np.isclose(r.order, 4.0) and r.order_used == 1.0 and r.safety_factor == 3.0
+    assert "Roache" in r.fallback and "outside (0.5, 2)" in r.fallback
+    # GCI_fine = 3 |e_a21| / (r21^1 - 1), extrapolation with p = 1 (Roache 1998)
+    assert np.isclose(r.gci_fine, 3.0 * abs((f[0] - f[1]) / f[0]) / (2.0 - 1.0))
+    assert np.isclose(r.extrapolated, (2.0 * f[0] - f[1]) / (2.0 - 1.0))
+    assert "fallback" in repr(r) and r.to_dict()["order_used"] == 1.0
+
+
+def test_roache_fallback_oscillatory():
+    r = grid_convergence([1.00, 1.05, 0.93], [1.0, 2.0, 4.0], formal_order=2.0)
+    assert r.order_used == 2.0 and r.safety_factor == 3.0 and "monotonically" in r.fallback
+    assert np.isclose(r.gci_fine, 3.0 * 0.05 / (2.0**2 - 1.0))
+
+
+def test_no_fallback_inside_range_or_without_formal_order():
+    h = np.array([1.0, 2.0, 4.0])
+    f = 5.0 + 0.3 * h**1.5
+    r = grid_convergence(f, h, formal_order=1.0)  # 1.5 lies inside (0.5, 2)
+    assert r.fallback == "" and r.safety_factor == 1.25 and np.isclose(r.order_used, 1.5)
+    r = grid_convergence(5.0 + 0.3 * h**4, h)  # no formal order: no fallback
+    assert r.fallback == "" and r.safety_factor == 1.25 and np.isclose(r.order_used, 4.0)
+    with pytest.raises(ValueError, match="formal_order"):
+        grid_convergence(f, h, formal_order=0.0)

@@ -151,3 +151,13 @@ def test_fatigue_notch_factor_limits():
     assert fatigue_notch_factor(2.5, 0.0) == 1.0
     assert fatigue_notch_factor(2.5, 1.0) == 2.5
     assert fatigue_notch_factor(3.0, 0.5) == pytest.approx(2.0)
+
+
+def test_peterson_q_validity_range_is_warned():
+    """Peterson's steel fit of a is stated for Su >= 550 MPa (80 kpsi; from memory, see
+    data/SOURCES.md): below it the fit extrapolates and says so, at and above it is quiet."""
+    from toolkit.assess.references import PETERSON_SU_MIN, peterson_q_warnings
+    assert PETERSON_SU_MIN == 550.0
+    w = peterson_q_warnings(510.0)
+    assert len(w) == 1 and "510" in w[0] and "550" in w[0]
+    assert peterson_q_warnings(550.0) == [] and peterson_q_warnings(1200.0) == []

@@ -31,6 +31,7 @@ from toolkit.core import stress as _stress
 __all__ = [
     "CAUTION", "CheckResult", "Working", "SNCurve", "sn_curve", "load_sn_data", "SN_DATA_PATH",
     "THICKNESS_EXPONENTS", "thickness_factor", "miner_damage", "fatigue_check", "static_check",
+    "free_edge_tangents", "surface_states",
 ]
 
 CAUTION = ("This result supports, and does not replace, the judgment of a qualified engineer "
@@ -460,8 +461,63 @@ def _fatigue_working(c, s, n, per, D, dl, gF, gM, ft):
 # ---------------------------------------------------------------------------
 # Static check
 # ---------------------------------------------------------------------------
+def free_edge_tangents(nodes, edges) -> np.ndarray:
+    """Unit tangents at the nodes of free (traction-free) edges, NaN elsewhere.
+
+    ``nodes`` (n, 2); ``edges`` (m, 2 or 3) rows ``[corner, corner(, mid-side)]``
+    (the models' ``edges`` sets).  A corner's tangent is the mean of the chord
+    directions of the edges that meet there (oriented alike), a mid-side
+    node's the chord of its own edge (exact on a circular arc).  Returns
+    (n, 2); use with ``static_check(..., tangents=...)``.
+    """
+    x = np.asarray(nodes, dtype=float)
+    e = np.asarray(edges, dtype=int)
+    if x.ndim != 2 or x.shape[1] != 2 or e.ndim != 2 or e.shape[1] not in (2, 3) or len(e) == 0:
+        raise InputError(f"free_edge_tangents: need nodes (n, 2) and edges (m, 2|3), got {x.shape}, {e.shape}")
+    chord = x[e[:, 1]] - x[e[:, 0]]
+    chord /= np.linalg.norm(chord, axis=1, keepdims=True)
+    ref = chord[0]
+    chord *= np.where(chord @ ref < 0, -1.0, 1.0)[:, None]  # one orientation; the sign does not matter
+    acc = np.zeros_like(x)
+    np.add.at(acc, e[:, 0], chord)
+    np.add.at(acc, e[:, 1], chord)
+    if e.shape[1] == 3:
+        np.add.at(acc, e[:, 2], chord)
+    norm = np.linalg.norm(acc, axis=1)
+    out = np.full_like(x, np.nan)
+    on = norm > 0
+    out[on] = acc[on] / norm[on, None]
+    return out
+
+
+def surface_states(values, components, tangents) -> np.ndarray:
+    """Stress states with the components normal to a free edge removed.
+
+    At a traction-free edge with unit normal ``n``, equilibrium gives
+    ``S n = 0``: the normal stress and the shear on the edge vanish, and the
+    in-plane state is the tangential stress alone, ``S = stt t (x) t`` (plane
+    stress at the surface; an out-of-plane ``szz``, e.g. the hoop stress of an
+    axisymmetric model, is kept).  A smoothed field does not satisfy this
+    exactly (an L2 projection leaves a spurious normal stress at the edge),
+    so the check at such points uses ``stt`` only.  Rows whose tangent is NaN
+    are returned unchanged.  ``values`` (..., ncomp) 2D components;
+    ``tangents`` (..., 2).
+    """
+    v = np.array(values, dtype=float)
+    t = np.asarray(tangents, dtype=float)
+    on = np.all(np.isfinite(t), axis=-1)
+    if not on.any():
+        return v
+    tu = _stress.unit_tangent(t[on], name="tangents")
+    T = _stress.to_tensor(v[on], components)
+    stt = np.einsum("pi,pij,pj->p", tu, T[:, :2, :2], tu)
+    T[:, :2, :2] = stt[:, None, None] * np.einsum("pi,pj->pij", tu, tu)
+    v[on] = _stress.from_tensor(T, tuple(components))
+    return v
+
+
 def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mises", components=None,
-                 unit="MPa", name=None) -> CheckResult:
+                 unit="MPa", name=None, tangents=None) -> CheckResult:
     """Static strength check: ``σ_eq <= f_y / S``.
 
     Parameters
@@ -474,6 +530,11 @@ def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mise
         principal stress of largest magnitude, tension or compression).
     yield_strength, safety_factor : positive numbers; limit = yield / safety factor.
     criterion : "von Mises" or "max principal".
+    tangents : optional (..., 2) unit tangents of free edges at the stress
+        states' points, NaN elsewhere (:func:`free_edge_tangents`); with
+        ``components``, states on a free edge are checked with the normal
+        components removed (:func:`surface_states`: ``snn = snt = 0`` by
+        equilibrium, plane stress at the surface).
     """
     crit = {"von mises": "von Mises", "max principal": "max principal"}.get(str(criterion).lower())
     if crit is None:
@@ -483,6 +544,10 @@ def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mise
         raise InputError(f"yield_strength must be positive, got {yield_strength}")
     if not (math.isfinite(sf) and sf > 0):
         raise InputError(f"safety_factor must be positive, got {safety_factor}")
+    n_surface = 0
+    if components is not None and tangents is not None:
+        n_surface = int(np.all(np.isfinite(np.asarray(tangents, dtype=float)), axis=-1).sum())
+        peak_stress = surface_states(peak_stress, components, tangents)
     if components is not None:
         eq = _stress.von_mises(peak_stress, components) if crit == "von Mises" else \
             _stress.max_abs_principal(peak_stress, components)
@@ -499,6 +564,10 @@ def static_check(peak_stress, yield_strength, safety_factor, criterion="von Mise
         idx = tuple(int(i) for i in np.unravel_index(k, eq.shape))
         inputs["points_checked"] = int(eq.size)
         notes.append(f"largest of {eq.size} values at index {idx}")
+    if n_surface:
+        inputs["free_edge_points"] = n_surface
+        notes.append(f"at {n_surface} free-edge points the surface state is used: normal and shear stress on the "
+                     "edge zero by equilibrium, tangential stress (and any out-of-plane stress) kept")
     if crit == "max principal":
         notes.append("max principal: the principal stress of largest magnitude (tension or compression)")
     crit_src = ("von Mises (distortion-energy) yield criterion (common practice)" if crit == "von Mises" else

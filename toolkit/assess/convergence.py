@@ -6,7 +6,9 @@ Sections
   Grid Convergence Index by the procedure of Celik, Ghia, Roache, Freitas,
   Coleman & Raad (2008), "Procedure for estimation and reporting of
   uncertainty due to discretization in CFD applications", J. Fluids Eng. 130,
-  078001.
+  078001, with Roache's fallback for an unreasonable observed order (Roache
+  1998, Verification and Validation in Computational Science and
+  Engineering, Hermosa: use the formal order with a safety factor of 3).
 * Error indicator (Zienkiewicz–Zhu): reserved for a later section of this
   module.
 """
@@ -50,6 +52,10 @@ class ConvergenceResult:
     orders : observed order of each consecutive triple (finest first; one entry for three grids).
     iterations : fixed-point iterations used for ``order``.
     warnings : list of str (oscillatory convergence, growing differences, small ratios, ...).
+    order_used : order behind ``extrapolated`` and the GCIs: ``order``, or the
+        formal order when Roache's fallback applies.
+    fallback : ``""``, or the sentence saying why the fallback (formal order,
+        ``Fs = 3``; Roache 1998) replaced the observed order.
     """
 
     values: np.ndarray
@@ -66,6 +72,12 @@ class ConvergenceResult:
     iterations: int
     safety_factor: float
     warnings: list = field(default_factory=list)
+    order_used: float = float("nan")
+    fallback: str = ""
+
+    def __post_init__(self):
+        if math.isnan(self.order_used):
+            self.order_used = self.order
 
     def to_dict(self) -> dict:
         return {"name": "grid convergence (Celik et al. 2008)", "values": self.values.tolist(),
@@ -74,12 +86,15 @@ class ConvergenceResult:
                 "asymptotic_ratio": self.asymptotic_ratio, "relative_error": self.relative_error,
                 "extrapolated_error": self.extrapolated_error, "ratios": self.ratios.tolist(),
                 "orders": self.orders.tolist(), "safety_factor": self.safety_factor,
+                "order_used": self.order_used, "fallback": self.fallback,
                 "warnings": list(self.warnings)}
 
     def __repr__(self):
         rows = [("grids (finest first)", ", ".join(f"h={h:.4g}: {v:.6g}" for h, v in zip(self.sizes, self.values))),
                 ("refinement ratios", ", ".join(f"{r:.4g}" for r in self.ratios)),
                 ("observed order p", f"{self.order:.4g}"),
+                *([("order used (fallback)", f"{self.order_used:.4g}, Fs = {self.safety_factor:g}")]
+                  if self.fallback else []),
                 ("extrapolated value", f"{self.extrapolated:.6g}"),
                 ("relative error e_a21", f"{self.relative_error:.3%}"),
                 ("extrapolated error e_ext21", f"{self.extrapolated_error:.3%}"),
@@ -92,6 +107,8 @@ class ConvergenceResult:
         lines = ["ConvergenceResult (Richardson extrapolation, Roache's GCI; Celik et al. 2008)"]
         lines += [f"  {k:<{w}}  {v}" for k, v in rows]
         lines += [f"  warning: {x}" for x in self.warnings]
+        if self.fallback:
+            lines.append(f"  fallback: {self.fallback}")
         return "\n".join(lines)
 
 
@@ -143,8 +160,15 @@ def grid_convergence(values, sizes, safety_factor=1.25, tol=1e-12, maxiter=500, 
     values : (n,) the quantity on each grid, finest first, ``n >= 3``.
     sizes : (n,) representative cell sizes, finest first, strictly increasing.
     safety_factor : ``Fs`` (1.25 for three or more grids, Celik et al.).
-    formal_order : optional theoretical order; a warning is added when the
-        observed order differs from it by more than 50 %.
+    formal_order : optional theoretical order ``p_f``.  When it is given and
+        the observed order is unreasonable -- outside ``(0.5 p_f, 2 p_f)``, or
+        the sequence is not monotonically converging (oscillatory, or the
+        differences grow under refinement) -- Roache's fallback applies
+        (Roache 1998, Verification and Validation in Computational Science
+        and Engineering, ch. 5): the extrapolated value and both GCIs use
+        ``p = p_f`` with the safety factor ``Fs = 3``; ``result.order`` keeps
+        the observed order, ``result.order_used`` and ``result.fallback`` say
+        what was used and why.  Without it the same criteria only warn.
 
     ``result.orders`` repeats the calculation for every consecutive triple
     when more than three grids are given.
@@ -185,9 +209,22 @@ def grid_convergence(values, sizes, safety_factor=1.25, tol=1e-12, maxiter=500, 
     if np.any(ratios < 1.3):
         warns.append(f"refinement ratio(s) {', '.join(f'{r:.3g}' for r in ratios[ratios < 1.3])} below 1.3, "
                      "the minimum Celik et al. (2008) recommend")
-    if formal_order is not None and abs(p - formal_order) > 0.5 * formal_order:
-        warns.append(f"observed order {p:.3g} differs from the formal order {formal_order:g} by more than 50 %: "
-                     "the grids may not be in the asymptotic range")
+    fallback, p_obs = "", p
+    if formal_order is not None:
+        pf = float(formal_order)
+        if not pf > 0:
+            raise InputError(f"formal_order must be positive, got {formal_order}")
+        if not 0.5 * pf < p < 2.0 * pf:
+            why = f"observed order {p:.3g} lies outside (0.5, 2) x the formal order {pf:g}"
+            warns.append(f"{why}: the grids may not be in the asymptotic range")
+        elif e32 / e21 < 0 or signed < 0:
+            why = "the grid sequence does not converge monotonically"
+        else:
+            why = ""
+        if why:
+            fallback = (f"{why}; Roache's fallback (Roache 1998): the formal order p = {pf:g} with the "
+                        f"safety factor Fs = 3 replaces the observed order in the extrapolation and the GCI")
+            p, fs = pf, 3.0
     rp21, rp32 = r21**p, r32**p
     ext = (rp21 * f1 - f2) / (rp21 - 1.0)
     if f1 == 0 or f2 == 0 or ext == 0:
@@ -199,6 +236,7 @@ def grid_convergence(values, sizes, safety_factor=1.25, tol=1e-12, maxiter=500, 
     gci21 = fs * ea21 / (rp21 - 1.0)
     gci32 = fs * ea32 / (rp32 - 1.0)
     ratio = gci32 / (rp21 * gci21)
-    return ConvergenceResult(values=phi, sizes=h, order=p, extrapolated=ext, gci_fine=gci21, gci_coarse=gci32,
+    return ConvergenceResult(values=phi, sizes=h, order=p_obs, extrapolated=ext, gci_fine=gci21, gci_coarse=gci32,
                              asymptotic_ratio=ratio, relative_error=ea21, extrapolated_error=eext, ratios=ratios,
-                             orders=np.array(orders), iterations=its, safety_factor=fs, warnings=warns)
+                             orders=np.array(orders), iterations=its, safety_factor=fs, warnings=warns,
+                             order_used=p, fallback=fallback)

@@ -20,7 +20,7 @@ from toolkit.errors import InputError
 
 __all__ = [
     "HOT_SPOT_RULES", "HotSpotRule", "lagrange_extrapolation_coefficients", "hot_spot_stress", "HotSpotResult",
-    "linearize", "Linearization", "hot_spot_concentration",
+    "linearize", "Linearization", "hot_spot_concentration", "region_crossings",
 ]
 
 # millimetres per model length unit; 1 in = 25.4 mm exactly (international inch, 1959)
@@ -169,7 +169,8 @@ def _sampled(distances, stresses):
     return at
 
 
-def hot_spot_stress(stress_at, thickness=None, rule="a-linear", element_size=None, unit="mm") -> HotSpotResult:
+def hot_spot_stress(stress_at, thickness=None, rule="a-linear", element_size=None, unit="mm",
+                    regions=None) -> HotSpotResult:
     """Structural hot-spot stress by surface extrapolation to the weld toe.
 
     ``sigma_hs = sum_i c_i sigma(x_i)`` with read-out points ``x_i`` and exact
@@ -205,6 +206,13 @@ def hot_spot_stress(stress_at, thickness=None, rule="a-linear", element_size=Non
         10 mm), a warning is added to ``result.warnings``.
     unit : {"mm", "cm", "m", "in"}
         Model length unit, used to place the type "b" read-outs (given in mm).
+    regions : (p,) int, optional
+        With a sampled path: the region of the cell holding each sample
+        (``PathResult.cell_region``; -1 outside).  When the region changes
+        inside the read-out window ``(0, x_last]`` (the toe itself may lie on
+        a region boundary) a warning names the distance of the change: the
+        read-outs then mix two parts, or two materials, whose stresses the
+        region-wise recovery keeps apart.
 
     Examples
     --------
@@ -249,6 +257,8 @@ def hot_spot_stress(stress_at, thickness=None, rule="a-linear", element_size=Non
         except (TypeError, ValueError):
             raise InputError("stress_at must be a callable of distance or a pair (distances, stresses)") from None
         sig = _sampled(distances, stresses)(x)
+    if regions is not None and callable(stress_at):
+        raise InputError("regions go with a sampled path (distances, stresses), not with a callable")
 
     value = np.tensordot(c, sig, axes=(0, 0))
     value = float(value) if np.ndim(value) == 0 else value
@@ -262,9 +272,30 @@ def hot_spot_stress(stress_at, thickness=None, rule="a-linear", element_size=Non
         if h > limit * (1 + 1e-9):
             warns.append(f"element length at the toe {h:.4g} {unit} is coarser than rule {rule} assumes "
                          f"({limit:.4g} {unit}; {r.element_note})")
+    if regions is not None:
+        warns += region_crossings(distances, regions, float(x.max()), unit)
     return HotSpotResult(value=value, readouts={"distances": x, "stresses": sig}, rule=rule, coefficients=c,
                          published=r.published, thickness=thickness, unit=unit, element_size=element_size,
                          warnings=warns)
+
+
+def region_crossings(distances, regions, window, unit="mm") -> list[str]:
+    """Warnings for region changes among the samples in ``(0, window]``.
+
+    ``distances`` (p,) increasing; ``regions`` (p,) the region of the cell
+    holding each sample.  The sample at distance 0 (the toe, often on the
+    boundary to the weld or attachment) is not counted.  One sentence per
+    change, naming the distance of the first sample in the new region.
+    """
+    d = np.asarray(distances, dtype=float)
+    g = np.asarray(regions)
+    if g.shape != d.shape:
+        raise InputError(f"regions {g.shape} must match the sample distances {d.shape}")
+    inside = (d > 0) & (d <= window * (1 + 1e-12))
+    dd, gg = d[inside], g[inside]
+    change = np.flatnonzero(gg[1:] != gg[:-1]) + 1
+    return [f"the read-out window 0..{window:.4g} {unit} crosses a region boundary at {dd[k]:.4g} {unit} from "
+            f"the toe (region {gg[k - 1]} to {gg[k]}): the read-outs mix two regions" for k in change]
 
 
 def hot_spot_concentration(hs, nominal):
@@ -321,10 +352,10 @@ class Linearization:
         f = lambda a: np.array2string(np.asarray(a), precision=5)  # noqa: E731
         return (f"Linearization (t = {self.thickness:.6g}, {self.integration}"
                 + (f", components {self.components}" if self.components else "") + ")\n"
-                f"  membrane              {f(self.membrane)}\n"
-                f"  bending (first face)  {f(self.bending)}\n"
-                f"  membrane+bending      first {f(self.structural[0])}  last {f(self.structural[1])}\n"
-                f"  peak                  first {f(self.peak[0])}  last {f(self.peak[1])}")
+                f"  membrane                         {f(self.membrane)}\n"
+                f"  bending (first face)             {f(self.bending)}\n"
+                f"  structural (membrane + bending)  first {f(self.structural[0])}  last {f(self.structural[1])}\n"
+                f"  peak                             first {f(self.peak[0])}  last {f(self.peak[1])}")
 
 
 def linearize(positions, stresses, components=None, integration="linear") -> Linearization:

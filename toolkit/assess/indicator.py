@@ -108,14 +108,15 @@ class ErrorIndicator:
                 f"||s_h|| = {self.norm:.4g}; largest at element {int(self.element_ids[i])} "
                 f"({self.per_element[i]:.3g}) of {len(self.per_element)})")
 
-    def plot(self, ax=None, quantity="error", cmap="viridis", edgecolor="none", colorbar=True):
+    def plot(self, ax=None, quantity="error", cmap="viridis", edgecolor="none", colorbar=True, unit="MPa",
+             length_unit="mm"):
         """Map of the per-element error over a 2D mesh (cells drawn as their
         corner polygons).  ``quantity``: ``"error"`` (``||e||_K``) or
         ``"density"`` (``||e||_K / sqrt(area_K)``, independent of element
         size).  Returns the axes (drawn by :func:`toolkit.report.plots.plot_indicator`)."""
         from toolkit.report.plots import plot_indicator
 
-        return plot_indicator(self, ax, quantity, cmap, edgecolor, colorbar)
+        return plot_indicator(self, ax, quantity, cmap, edgecolor, colorbar, unit, length_unit)
 
 
 def error_indicator(field: GaussField, recovered: NodalField, E=None, nu=None, plane="stress",

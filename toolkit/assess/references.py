@@ -13,7 +13,8 @@ import numpy as np
 
 from toolkit.errors import InputError
 
-__all__ = ["kirsch_kt", "kirsch_ligament", "heywood_kt_net", "fillet_kt", "peterson_q", "fatigue_notch_factor"]
+__all__ = ["kirsch_kt", "kirsch_ligament", "heywood_kt_net", "fillet_kt", "peterson_q", "peterson_q_warnings",
+           "PETERSON_SU_MIN", "fatigue_notch_factor"]
 
 
 def kirsch_kt() -> float:
@@ -93,12 +94,28 @@ def peterson_q(fillet_radius: float, tensile_strength: float) -> float:
     Peterson's Stress Concentration Factors; from memory, the printed page
     was not reachable).  Shigley's Mechanical Engineering Design fits the
     same chart in Neuber's form instead; the two agree within 0.12 in q for
-    Su 0.4..1.4 GPa, r 0.5..4 mm (tests/test_references.py).  Intended for
-    steels with Su roughly 340..1700 MPa."""
+    Su 0.4..1.4 GPa, r 0.5..4 mm (tests/test_references.py).  The fit is
+    stated for steels with Su >= 550 MPa (80 kpsi; from memory, with the fit);
+    below that it extrapolates: :func:`peterson_q_warnings` says so."""
     if fillet_radius <= 0 or tensile_strength <= 0:
         raise InputError("fillet radius and tensile strength must be positive")
     a = 0.0254 * (2070.0 / tensile_strength) ** 1.8
     return 1.0 / (1.0 + a / fillet_radius)
+
+
+#: Lowest tensile strength (MPa) for which Peterson's steel fit of ``a`` is stated (80 kpsi).
+PETERSON_SU_MIN = 550.0
+
+
+def peterson_q_warnings(tensile_strength: float) -> list[str]:
+    """Warnings for :func:`peterson_q` at this tensile strength (MPa): one
+    sentence when Su lies below :data:`PETERSON_SU_MIN`, where the fit
+    ``a = 0.0254 (2070/Su)^1.8 mm`` is an extrapolation; else ``[]``."""
+    if tensile_strength < PETERSON_SU_MIN:
+        return [f"Su = {tensile_strength:g} MPa lies below {PETERSON_SU_MIN:g} MPa, the lowest tensile strength "
+                "for which Peterson's steel fit a = 0.0254 (2070/Su)^1.8 mm is stated: q is extrapolated "
+                "(a larger a, so a lower q and Kf, which is not conservative)"]
+    return []
 
 
 def fatigue_notch_factor(kt: float, q: float) -> float:

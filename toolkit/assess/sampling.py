@@ -16,7 +16,7 @@ from toolkit.core.fields import GaussField, NodalField, RowLayout
 from toolkit.core.locate import Location, PointLocator, check_outside, evaluation_operator
 from toolkit.assess.paths import EdgePath, Path, PathSamples
 
-__all__ = ["PathResult", "sample", "raw_along", "STRESS_QUANTITIES"]
+__all__ = ["PathResult", "sample", "raw_along", "sample_regions", "STRESS_QUANTITIES"]
 
 #: Names of the quantities :class:`PathResult` derives from a stress field.
 STRESS_QUANTITIES = ("snn", "stt", "snt", "von_mises", "s1", "s2", "s3", "tresca", "hydrostatic")
@@ -68,6 +68,16 @@ def _derived(values, components, tangents, normals, dim):
     return out
 
 
+def sample_regions(location) -> np.ndarray:
+    """Region id of the cell holding each located point, ``-1`` outside (int (p,))."""
+    mesh = location.mesh
+    regs = np.concatenate([np.asarray(b.regions, dtype=np.int64) for b in mesh.blocks] + [np.array([-1])])
+    offset = np.r_[0, np.cumsum([len(b) for b in mesh.blocks])]
+    blk = np.asarray(location.block)
+    idx = np.where(blk >= 0, offset[np.maximum(blk, 0)] + np.asarray(location.cell), len(regs) - 1)
+    return regs[idx]
+
+
 class PathResult:
     """A field read along a path.
 
@@ -81,6 +91,9 @@ class PathResult:
         >= ``s2`` >= ``s3`` (principal, the out-of-plane ``szz`` (or hoop)
         stress included, 0 for plane stress), ``tresca``, ``hydrostatic``.
     element : (n,) the mesh's element number at each point (-1 outside)
+    cell_region : (n,) the region id of the cell holding each point (-1 outside);
+        a change along the path marks a region boundary (pass it to
+        :func:`toolkit.assess.hotspot.hot_spot_stress` as ``regions``)
     pieces : list of index arrays (raw curves: one per element crossed) or None
     method : how the field was made (``"l2"``, ``"spr"``, ``"raw"`` ...)
 
@@ -102,6 +115,7 @@ class PathResult:
         self.pieces = pieces
         self.method = method
         self.region = region
+        self.cell_region = sample_regions(location)
 
     @property
     def quantities(self) -> tuple:

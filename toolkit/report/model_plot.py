@@ -33,8 +33,8 @@ def plot_model(model, ax=None, show_loads=True, show_supports=True, legend=True)
     ax.set_aspect("equal")
     ax.autoscale_view()
     ax.set_title(f"{model.kind} ({model.mesh.ncells} {model.mesh.blocks[0].name} cells, {model.analysis})")
-    if legend:
-        ax.legend(loc="best", fontsize="small")
+    if legend:   # outside the axes, to the right: it covers no part of the model
+        ax.legend(loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0, fontsize="small")
     return ax
 
 

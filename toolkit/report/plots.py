@@ -18,7 +18,59 @@ from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
 
 __all__ = ["plot_mesh", "contour_nodal", "contour_raw", "raw_vs_smoothed", "plot_path", "plot_indicator",
-           "ContourData", "nodal_contour_data", "raw_contour_data", "contour_levels", "raw_nodal_values"]
+           "ContourData", "nodal_contour_data", "raw_contour_data", "contour_levels", "raw_nodal_values",
+           "METHOD_STYLES", "method_style", "legend_outside", "mark_path", "zoom_to", "contour_with_zoom"]
+
+#: Line style, marker and colour of each recovery method, the same in every figure, so
+#: curves that lie on top of each other stay distinguishable (and print in grey scale).
+METHOD_STYLES = {
+    "L2 projection": dict(linestyle="-", marker="o", color="tab:blue"),
+    "L2 projection (lumped)": dict(linestyle=(0, (5, 2)), marker="D", color="tab:purple"),
+    "nodal averaging": dict(linestyle="--", marker="s", color="tab:orange"),
+    "patch recovery (SPR)": dict(linestyle="-.", marker="^", color="tab:green"),
+}
+_SPARE_STYLES = [dict(linestyle=":", marker="v", color="tab:red"), dict(linestyle="-", marker="x", color="tab:brown"),
+                 dict(linestyle="--", marker="+", color="tab:pink")]
+
+
+def method_style(name, index=0) -> dict:
+    """Keyword arguments (linestyle, marker, colour) for the curve of recovery
+    method ``name``: :data:`METHOD_STYLES`, else a spare style by ``index``."""
+    return dict(METHOD_STYLES.get(name) or _SPARE_STYLES[index % len(_SPARE_STYLES)])
+
+
+def legend_outside(ax, **kwargs):
+    """A legend to the right of the axes, outside them, so it covers no part
+    of the model or the curves.  Returns the legend."""
+    kw = dict(loc="upper left", bbox_to_anchor=(1.02, 1.0), borderaxespad=0.0, fontsize="small")
+    kw.update(kwargs)
+    return ax.legend(**kw)
+
+
+def mark_path(ax, path, label=None, n=101, color="k", length_unit="mm", **kwargs):
+    """Draw ``path`` on a model or contour plot with its start (distance 0)
+    marked by a filled circle and the text "0", and its end by an arrow head,
+    so the direction of the distance axis of the path plots can be read.
+    Returns the (start point, end point)."""
+    s = path.sample(n)
+    pts = s.points
+    ax.plot(pts[:, 0], pts[:, 1], color=color, lw=kwargs.pop("lw", 1.8), label=label, **kwargs)
+    ax.plot(*pts[0], "o", color=color, ms=6, mfc=color, label="_start")
+    ax.annotate(f"0 {length_unit}", pts[0], xytext=(4, 4), textcoords="offset points", fontsize=8, color=color)
+    ax.annotate("", pts[-1], pts[-2], arrowprops=dict(arrowstyle="-|>", color=color, lw=1.2))
+    return pts[0], pts[-1]
+
+
+def zoom_to(ax, centre, half_width, aspect=None):
+    """Limit ``ax`` to the square of half-width ``half_width`` about
+    ``centre`` (a zoom on the critical region: fillet, toe, hole edge)."""
+    cx, cy = float(centre[0]), float(centre[1])
+    h = float(half_width)
+    if not h > 0:
+        raise InputError(f"zoom_to: half_width must be positive, got {half_width}")
+    ax.set_xlim(cx - h, cx + h)
+    ax.set_ylim(cy - h, cy + h)
+    return ax
 
 
 def _axes(ax):
@@ -89,7 +141,7 @@ def contour_levels(z, levels, vmin=None, vmax=None) -> np.ndarray:
     return np.linspace(vmin, vmax, levels)
 
 
-def _draw(ax, data: ContourData, levels, cmap, label, vmin=None, vmax=None):
+def _draw(ax, data: ContourData, levels, cmap, label, vmin=None, vmax=None, unit="MPa"):
     import matplotlib.pyplot as plt
     import matplotlib.tri as mtri
 
@@ -97,7 +149,7 @@ def _draw(ax, data: ContourData, levels, cmap, label, vmin=None, vmax=None):
     lv = contour_levels(data.z, levels, vmin, vmax)
     cs = ax.tricontourf(tri, data.z, levels=lv, cmap=cmap, extend="neither")
     ax.set_aspect("equal")
-    plt.colorbar(cs, ax=ax, label=label, shrink=0.85)
+    plt.colorbar(cs, ax=ax, label=f"{label} ({unit})" if unit else label, shrink=0.85)
     return cs
 
 
@@ -113,12 +165,13 @@ def nodal_contour_data(nodal: NodalField, component) -> ContourData:
 
 
 def contour_nodal(nodal: NodalField, component, ax=None, levels=21, cmap="viridis", mesh_lines=False,
-                  vmin=None, vmax=None, title=None):
+                  vmin=None, vmax=None, title=None, unit="MPa"):
     """Filled contours of a smoothed nodal field (region splits respected:
-    each region is drawn from its own values)."""
+    each region is drawn from its own values).  The colour bar reads
+    ``component (unit)``."""
     data = nodal_contour_data(nodal, component)
     ax = _axes(ax)
-    _draw(ax, data, levels, cmap, component, vmin, vmax)
+    _draw(ax, data, levels, cmap, component, vmin, vmax, unit)
     if mesh_lines:
         plot_mesh(nodal.mesh, ax, linewidth=0.2)
     ax.set_title(title or f"{component}, {nodal.method or 'nodal'}")
@@ -154,19 +207,20 @@ def raw_contour_data(field: GaussField, component) -> ContourData:
 
 
 def contour_raw(field: GaussField, component, ax=None, levels=21, cmap="viridis", vmin=None, vmax=None,
-                title=None):
+                title=None, unit="MPa"):
     """Filled contours of the raw field: every cell drawn from its own
-    integration-point values, so the jumps between cells stay visible."""
+    integration-point values, so the jumps between cells stay visible.  The
+    colour bar reads ``component (unit)``."""
     data = raw_contour_data(field, component)
     ax = _axes(ax)
-    _draw(ax, data, levels, cmap, component, vmin, vmax)
+    _draw(ax, data, levels, cmap, component, vmin, vmax, unit)
     ax.set_title(title or f"{component}, raw (cell by cell)")
     return ax
 
 
-def raw_vs_smoothed(field: GaussField, nodal: NodalField, component, figsize=(11, 4.2), levels=21):
+def raw_vs_smoothed(field: GaussField, nodal: NodalField, component, figsize=(11, 4.2), levels=21, unit="MPa"):
     """The raw integration-point field beside the smoothed one, on one colour
-    scale.  Returns the figure."""
+    scale (colour bars in ``unit``).  Returns the figure."""
     import matplotlib.pyplot as plt
 
     raw = raw_nodal_values(field, component)
@@ -174,17 +228,49 @@ def raw_vs_smoothed(field: GaussField, nodal: NodalField, component, figsize=(11
     lo = min(min(v.min() for v in raw.values()), z.min())
     hi = max(max(v.max() for v in raw.values()), z.max())
     fig, axes = plt.subplots(1, 2, figsize=figsize, constrained_layout=True)
-    contour_raw(field, component, axes[0], levels, vmin=lo, vmax=hi)
+    contour_raw(field, component, axes[0], levels, vmin=lo, vmax=hi, unit=unit)
     contour_nodal(nodal, component, axes[1], levels, vmin=lo, vmax=hi,
-                  title=f"{component}, smoothed ({nodal.method})")
+                  title=f"{component}, smoothed ({nodal.method})", unit=unit)
     return fig
 
 
-def plot_path(result, ax=None, quantity="von_mises", label=None, **kwargs):
+def contour_with_zoom(nodal: NodalField, component, centre, half_width, paths=None, figsize=(12, 4.2),
+                      levels=21, unit="MPa", length_unit="mm", title=None):
+    """Two panels on one colour scale: the smoothed field over the whole
+    model, and a zoom on the critical region (the square of half-width
+    ``half_width`` about ``centre``: fillet, toe, hole edge) with the mesh
+    drawn.  ``paths`` (label -> path) are drawn on both panels with their
+    start (distance 0) marked (:func:`mark_path`); legends sit outside the
+    axes.  Returns the figure."""
+    import matplotlib.pyplot as plt
+
+    z = nodal.values[:, nodal.components.index(component)]
+    lo, hi = float(np.nanmin(z)), float(np.nanmax(z))
+    fig, axes = plt.subplots(1, 2, figsize=figsize, constrained_layout=True)
+    contour_nodal(nodal, component, axes[0], levels, vmin=lo, vmax=hi, unit=unit,
+                  title=title or f"{component}, smoothed ({nodal.method})")
+    contour_nodal(nodal, component, axes[1], levels, vmin=lo, vmax=hi, unit=unit, mesh_lines=True,
+                  title=f"zoom: {2 * float(half_width):.3g} {length_unit} square")
+    colours = ["k", "tab:red", "tab:blue", "tab:orange"]
+    for ax in axes:
+        for i, (label, p) in enumerate((paths or {}).items()):
+            mark_path(ax, p, label=label, color=colours[i % len(colours)], length_unit=length_unit)
+        ax.set(xlabel=f"x ({length_unit})", ylabel=f"y ({length_unit})")
+    zoom_to(axes[1], centre, half_width)
+    cx, cy, h = float(centre[0]), float(centre[1]), float(half_width)
+    axes[0].plot([cx - h, cx + h, cx + h, cx - h, cx - h], [cy - h, cy - h, cy + h, cy + h, cy - h], color="w",
+                 lw=1.0, ls="--", label="zoomed region")
+    legend_outside(axes[1])
+    return fig
+
+
+def plot_path(result, ax=None, quantity="von_mises", label=None, unit="MPa", length_unit="mm", legend=True,
+              **kwargs):
     """Plot ``quantity`` (a name or a list of names) of a
     :class:`~toolkit.assess.sampling.PathResult` against distance; raw curves
     (``result.pieces``) are drawn element by element so their jumps show.
-    Returns the axes."""
+    Axis labels carry ``unit`` (stress) and ``length_unit`` (distance from
+    the path's start).  Returns the axes."""
     import matplotlib.pyplot as plt
 
     if ax is None:
@@ -203,18 +289,24 @@ def plot_path(result, ax=None, quantity="von_mises", label=None, **kwargs):
                 line = line or ln
         else:
             ax.plot(result.distances, y, label=lab, **kwargs)
-    ax.set_xlabel(f"distance along {result.label}")
-    ax.set_ylabel(names[0] if len(names) == 1 else "value")
-    ax.legend()
+    ax.set_xlabel(f"distance along {result.label} from its start ({length_unit})")
+    ax.set_ylabel(f"{names[0] if len(names) == 1 else 'stress'} ({unit})")
+    if legend:
+        ax.legend()
     return ax
 
 
-def plot_indicator(ind, ax=None, quantity="error", cmap="viridis", edgecolor="none", colorbar=True):
+def plot_indicator(ind, ax=None, quantity="error", cmap="viridis", edgecolor="none", colorbar=True, unit="MPa",
+                   length_unit="mm"):
     """Map of the per-element error of an
     :class:`~toolkit.assess.indicator.ErrorIndicator` over a 2D mesh (cells
     drawn as their corner polygons).  ``quantity``: ``"error"``
     (``||e||_K``) or ``"density"`` (``||e||_K / sqrt(area_K)``, independent
-    of element size).  Returns the axes."""
+    of element size).  The colour bar carries the unit of a plane model: the
+    L2 norm over the cell area is in ``unit length_unit`` (the energy norm in
+    ``unit^0.5 length_unit``); the density drops the length.  (An
+    axisymmetric model integrates over 2 pi r dA: one more ``length_unit^0.5``.)
+    Returns the axes."""
     import matplotlib.pyplot as plt
     from matplotlib.collections import PolyCollection
 
@@ -238,5 +330,7 @@ def plot_indicator(ind, ax=None, quantity="error", cmap="viridis", edgecolor="no
     ax.set_aspect("equal")
     ax.set_title(f"ZZ error estimate ({ind.measure}), eta = {100 * ind.eta:.3g} %")
     if colorbar:
-        ax.figure.colorbar(pc, ax=ax, label="||e||_K" if quantity == "error" else "||e||_K / sqrt(A_K)")
+        su = unit if ind.measure == "L2" else f"{unit}^0.5"      # energy norm: sqrt(stress^2 / modulus)
+        ax.figure.colorbar(pc, ax=ax, label=f"||e||_K ({su} {length_unit})" if quantity == "error"
+                           else f"||e||_K / sqrt(A_K) ({su})")
     return ax

@@ -50,6 +50,8 @@ def convergence_lines(conv) -> list[str]:
            f"GCI fine grid = {conv.gci_fine:.3%}, coarse = {conv.gci_coarse:.3%}",
            f"asymptotic-range ratio = {conv.asymptotic_ratio:.4g} (near 1: in the asymptotic range)"]
     out += [f"warning: {w}" for w in conv.warnings]
+    if getattr(conv, "fallback", ""):
+        out.append(f"fallback: {conv.fallback}")
     return out
 
 

@@ -9,33 +9,43 @@ the controls below it redraw the plot.  Mark panel cells
 from __future__ import annotations
 
 from toolkit.assess.sampling import raw_along, sample
+from toolkit.report.plots import legend_outside, method_style
 from toolkit.report.tables import headless
 
 __all__ = ["path_panel", "plot_path_comparison"]
 
 
 def plot_path_comparison(path, nodal_fields: dict, field=None, quantity="snn", ax=None, n=101, shift=0.0,
-                         marks=None, title=None):
+                         marks=None, title=None, unit="MPa", length_unit="mm"):
     """Plot ``quantity`` along ``path`` for every recovery method in
     ``nodal_fields`` (name -> NodalField), with the raw integration-point
     curve of ``field`` (jagged, element by element) when given, and vertical
     marks at ``marks`` (distances: read-out points).  ``shift`` moves a
     straight path along its normal.  Points outside the mesh are left out of
-    the plot (NaN), never invented."""
+    the plot (NaN), never invented.  Each method keeps its own line style,
+    marker and colour (:data:`toolkit.report.plots.METHOD_STYLES`), so curves
+    lying on top of each other stay distinguishable; markers are staggered
+    between methods.  The legend sits outside the axes; the axes carry
+    ``unit`` and ``length_unit``."""
     import matplotlib.pyplot as plt
 
     if ax is None:
         _, ax = plt.subplots(figsize=(7, 4))
     p = path.shifted(shift) if shift else path
-    for name, nf in nodal_fields.items():
+    every = max(n // 10, 1)
+    for i, (name, nf) in enumerate(nodal_fields.items()):
         res = sample(nf, p, n=n, outside="nan")
-        res.plot(ax, quantity=quantity, label=name)
+        st = method_style(name, i)
+        res.plot(ax, quantity=quantity, label=name, unit=unit, length_unit=length_unit, legend=False,
+                 markevery=(i * every // max(len(nodal_fields), 1), every), markersize=5, mfc="none", **st)
     if field is not None:
         raw = raw_along(field, p, n=n, outside="nan")
-        raw.plot(ax, quantity=quantity, label="raw (per element)", color="0.55", linewidth=0.9)
+        raw.plot(ax, quantity=quantity, label="raw (per element)", color="0.55", linewidth=0.9, unit=unit,
+                 length_unit=length_unit, legend=False)
     for d in marks or ():
         ax.axvline(d, color="0.3", linestyle=":", linewidth=0.8)
-    ax.set_ylabel(f"{quantity} (MPa)")
+    ax.set_ylabel(f"{quantity} ({unit})")
+    legend_outside(ax)
     if title:
         ax.set_title(title)
     ax.grid(True, alpha=0.3)

@@ -26,7 +26,7 @@ import matplotlib.pyplot as plt
 import toolkit as tk
 from toolkit import report
 from toolkit.report import plots
-from toolkit.assess.checks import static_check
+from toolkit.assess.checks import free_edge_tangents, static_check
 from toolkit.fem.models import plate_with_hole
 from toolkit.assess.references import heywood_kt_net, kirsch_kt, kirsch_ligament
 from toolkit.fem.solver import solve
@@ -110,6 +110,8 @@ report.Table(rows, ["source", "peak sxx (MPa)", "Kt net", "Kt gross"], title="Pe
 
 # %% [markdown]
 # ## Paths
+# The smoothed σxx with both paths drawn (a filled dot marks each path's start, distance 0; the arrow its
+# end), and a zoom on the hole edge with the mesh.
 # Along the ligament (x = 0, from the hole edge to the plate side) σxx falls from the peak; the Kirsch
 # distribution for an infinite plate, 1 + a²/2y² + 3a⁴/2y⁴ times σ, is drawn for comparison. Around the
 # hole edge (from the load axis to the ligament) the stress along the edge rises from about −σ to the
@@ -121,11 +123,13 @@ ligament = tk.line((0.0, a), (0.0, width / 2))
 ligament.label = "ligament"
 hole_edge = tk.arc((0.0, 0.0), a, 0.0, 90.0)
 hole_edge.label = "hole edge"
-fig, axes = plt.subplots(1, 2, figsize=(12, 4), constrained_layout=True)
+fig = plots.contour_with_zoom(nodal, "sxx", (0.0, a), 1.6 * a, paths={"ligament": ligament, "hole edge": hole_edge})
+plt.show()
+fig, axes = plt.subplots(1, 2, figsize=(13, 4), constrained_layout=True)
 plot_path_comparison(ligament, recovered, field, "sxx", axes[0], title="ligament: sxx")
 y = np.linspace(a, width / 2, 200)
 axes[0].plot(y - a, remote_stress * kirsch_ligament(y, a), "k--", lw=1, label="Kirsch, infinite plate")
-axes[0].legend(fontsize=8)
+plots.legend_outside(axes[0])
 plot_path_comparison(hole_edge, recovered, field, "stt", axes[1], title="hole edge: stress along the edge")
 plt.show()
 lig = tk.sample(nodal, ligament, n=11)
@@ -170,12 +174,16 @@ print("\n".join(convergence_lines(conv)))
 
 # %% [markdown]
 # ## Checks
-# Static strength: the largest nodal von Mises stress of the smoothed field against yield over the
-# safety factor.
+# Static strength: the largest von Mises stress of the smoothed field at the nodes against yield over the
+# safety factor. On the hole edge, a free surface, the normal and shear stresses on the edge vanish by
+# equilibrium, but the L2-smoothed field keeps a small spurious normal stress there; at those nodes the
+# check uses the stress along the edge alone (plane stress at the surface).
 
 # %%
-peak_vm = float(np.max(von_mises(nodal.values, nodal.components)))
-static = static_check(peak_vm, yield_strength, safety_factor)
+edge_tangents = free_edge_tangents(model.mesh.nodes, model.edges["hole"])
+static = static_check(nodal.values, yield_strength, safety_factor, components=nodal.components,
+                      tangents=edge_tangents[nodal.node])
+peak_vm = static.value
 check_table([static])
 
 # %%
