@@ -14,7 +14,7 @@ formatted to 6 significant digits, or the ``digits`` a value was recorded
 with) and embeds the exact data in that output's
 *metadata* under the key ``"stresspath"``; ``toolkit.workbook.render``
 extracts it from the executed notebook (:func:`read_summary`) and writes
-``summary.json``.  This needs no file and no agreed working directory, it
+``<name>.summary.json``.  This needs no file and no agreed working directory, it
 survives in the stored ``.ipynb``, and strict ``pytest --nbval`` never
 compares output metadata, so full-precision floats cannot break it while the
 formatted table is still compared.  A workbook calls ``save()`` exactly once.
@@ -32,6 +32,7 @@ import numbers
 from pathlib import Path
 
 from toolkit.errors import InputError, WorkbookError
+from toolkit.io.files import atomic_write
 from toolkit.report.format import first_non_finite, fmt, json_text, plain
 
 __all__ = ["Summary", "inputs_hash", "read_summary", "SUMMARY_METADATA_KEY", "SUMMARY_FORMAT"]
@@ -62,7 +63,7 @@ def inputs_hash(params) -> str:
 
 
 class Summary:
-    """The results a workbook hands to ``toolkit.workbook.render`` for ``summary.json``.
+    """The results a workbook hands to ``toolkit.workbook.render`` for ``<name>.summary.json``.
 
     Parameters
     ----------
@@ -167,7 +168,7 @@ class Summary:
         """
         data = self.to_dict()
         if path is not None:
-            Path(path).write_text(json_text(data), encoding="utf-8")
+            atomic_write(Path(path), lambda f: f.write(json_text(data)))
         try:
             from IPython import get_ipython
         except ImportError:  # plain Python, no IPython installed

@@ -1,6 +1,6 @@
 """Layer 6: parameterised notebooks.  The parameters-cell grammar
 (``parameters``), notebook files and injection (``notebook``), execution in a
-fresh kernel with ``summary.json`` (``execute``), the offline HTML report
+fresh kernel with ``<name>.summary.json`` (``execute``), the offline HTML report
 (``html``), ``new`` and ``demo`` (``create``); the summary record itself
 lives in :mod:`toolkit.report.summary`."""
 from toolkit.errors import ParameterError, WorkbookError, WorkbookExecutionError

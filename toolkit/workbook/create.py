@@ -14,6 +14,7 @@ import time
 from pathlib import Path
 
 from toolkit.errors import WorkbookError, WorkbookExecutionError
+from toolkit.io.files import same_file
 from toolkit.workbook.execute import render
 from toolkit.workbook.notebook import (WORKBOOKS_DIR, clean_notebook, clear_outputs, drop_injected, ensure_ids,
                                        known_workbooks, parameters_cell, read_notebook, write_notebook)
@@ -53,7 +54,7 @@ def new_workbook(template, name, out_dir, source_dir=None, overwrite=False) -> P
     name : str
         The component; also the file name.
     overwrite : bool
-        Replace an existing file (default: refuse).
+        Replace an existing file (default: refuse); the template itself is never replaced.
     """
     folder = Path(source_dir) if source_dir is not None else WORKBOOKS_DIR
     known = known_workbooks(folder)
@@ -82,6 +83,8 @@ def new_workbook(template, name, out_dir, source_dir=None, overwrite=False) -> P
     ensure_ids(nb)
     out = Path(out_dir)
     target = out / f"{name}.ipynb"
+    if same_file(target, src):
+        raise WorkbookError(f"{target} is the template itself; choose another --out")
     if target.exists() and not overwrite:
         raise WorkbookError(f"{target} exists; choose another name or remove it first")
     out.mkdir(parents=True, exist_ok=True)
