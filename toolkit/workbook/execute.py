@@ -45,6 +45,7 @@ The notebook libraries (nbformat, nbclient, tqdm) are imported when needed.
 """
 from __future__ import annotations
 
+import math
 import os
 import sys
 import time
@@ -246,10 +247,12 @@ def _execute(run: _Run, failed_path, timeout, progress) -> int:
     def on_executed(cell, cell_index, execute_reply):  # after the reply, unlike on_cell_complete
         bar.update(1)
 
+    timeout = math.ceil(timeout)     # nbclient takes whole seconds (a float such as 2.5 was refused)
     client = _client_class()(nb, kernel_name="python3", timeout=timeout, record_timing=False,
                              kernel_manager_class=_kernel_manager_class(),
                              # the kernel app's own start-up warnings (not cell output) stay quiet
                              extra_arguments=["--IPKernelApp.log_level=ERROR"],
+                             shutdown_kernel="immediate",   # a timed-out cell need not be waited for
                              resources={"metadata": {"path": str(run.out)}},
                              on_cell_start=on_start, on_cell_executed=on_executed)
     env = dict(os.environ)
@@ -326,14 +329,14 @@ class _FolderLock:
         self.held = False
 
     def __enter__(self):
-        for _ in range(3):
+        for _ in range(50):             # an empty lock is being written just now: look again
             try:
                 fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
             except FileExistsError:
                 try:
                     pid = int(self.path.read_text().strip() or 0)
                 except (OSError, ValueError):
-                    pid = 0              # being written just now, or unreadable: look again
+                    pid = 0
                 if pid and _pid_alive(pid):
                     raise WorkbookError(f"another render is writing into {self.path.parent} (pid {pid}); "
                                         f"wait for it or choose another --out") from None
@@ -406,7 +409,7 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
     params_file : str or Path, optional
         A JSON object of parameter values.
     timeout : float
-        Seconds allowed per cell.
+        Seconds allowed per cell (rounded up to whole seconds).
     progress : bool
         Show a progress bar over the code cells (stderr).
 
