@@ -174,8 +174,9 @@ def _inject(run: _Run):
 def _client_class():
     """An nbclient ``NotebookClient`` that leaves SIGINT and SIGTERM to the
     caller: nbclient's own handlers only schedule a kernel shutdown, so the
-    run would end as "the kernel died" instead of as an interruption."""
-    import signal
+    run would end as "the kernel died" instead of as an interruption.  This is
+    nbclient's ``async_setup_kernel`` without its signal handlers and exit
+    hook; :func:`_stop_kernel` stops the kernel however the run ends."""
     from contextlib import asynccontextmanager
 
     from nbclient import NotebookClient
@@ -185,28 +186,29 @@ def _client_class():
         async def async_setup_kernel(self, **kwargs):
             import asyncio
 
-            saved = {sig: signal.getsignal(sig) for sig in (signal.SIGINT, signal.SIGTERM)}
-            async with super().async_setup_kernel(**kwargs):
-                loop = self.stresspath_loop = asyncio.get_running_loop()
-                for sig, handler in saved.items():
-                    try:
-                        loop.remove_signal_handler(sig)
-                        signal.signal(sig, handler if handler is not None else signal.SIG_DFL)
-                    except (RuntimeError, ValueError):   # not the main thread: nothing was installed
-                        pass
+            self.stresspath_loop = asyncio.get_running_loop()
+            cleanup_kc = kwargs.pop("cleanup_kc", self.owns_km)
+            if self.km is None:
+                self.km = self.create_kernel_manager()
+            if not self.km.has_kernel:
+                await self.async_start_new_kernel(**kwargs)
+            if self.kc is None:
+                await self.async_start_new_kernel_client()
+            try:
                 yield
+            finally:
+                if cleanup_kc:
+                    await self._async_cleanup_kernel()
 
     return _Client
 
 
 def _stop_kernel(client):
-    """Stop the client's kernel if it still runs (after an interruption the
-    event loop stopped mid-run: the kernel process is killed directly and the
-    run's unfinished task is cancelled) and drop nbclient's exit hook for it."""
+    """Stop the client's kernel if it still runs: after an interruption the
+    event loop stopped mid-run, so the kernel process is killed directly and
+    the run's unfinished task is cancelled."""
     import asyncio
-    import atexit
 
-    atexit.unregister(client._cleanup_kernel)
     km = getattr(client, "km", None)
     if km is None:
         return
