@@ -49,9 +49,11 @@ def replacing(path, suffix: str = ".tmp"):
     try:
         yield tmp
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as e:
         if os.path.exists(tmp):
             os.unlink(tmp)
+        if isinstance(e, OSError) and e.filename is None and e.errno is not None:   # e.g. a full disk:
+            raise OSError(e.errno, e.strerror, str(path)) from None                 # name the file
         raise
 
 

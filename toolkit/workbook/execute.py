@@ -313,6 +313,9 @@ LOCK_FILE = ".render.lock"
 
 
 def _pid_alive(pid: int) -> bool:
+    """Whether process ``pid`` runs (on Windows, where signal 0 would end it, assume so)."""
+    if os.name == "nt":
+        return True
     try:
         os.kill(pid, 0)
     except ProcessLookupError:
@@ -341,7 +344,8 @@ class _FolderLock:
                     pid = 0
                 if pid and _pid_alive(pid):
                     raise WorkbookError(f"another render is writing into {self.path.parent} (pid {pid}); "
-                                        f"wait for it or choose another --out") from None
+                                        f"wait for it or choose another --out (if none runs, remove "
+                                        f"{self.path})") from None
                 if pid:
                     self.path.unlink(missing_ok=True)       # stale: its process is gone
                 else:
