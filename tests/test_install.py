@@ -62,4 +62,4 @@ def test_unpacked_wheel_renders_a_workbook_from_another_folder(wheel, tmp_path):
     r = subprocess.run([sys.executable, "-m", "toolkit", "render", "weld_toe", "--quiet", "--out", "report"],
                        cwd=work, env=env, capture_output=True, text=True, timeout=600)
     assert r.returncode == 0, r.stderr
-    assert (work / "report" / "weld_toe.html").is_file() and (work / "report" / "summary.json").is_file()
+    assert (work / "report" / "weld_toe.html").is_file() and (work / "report" / "weld_toe.summary.json").is_file()

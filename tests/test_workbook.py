@@ -1,5 +1,5 @@
 """Workbook engine: parameters grammar, validation before execution, execution,
-deterministic notebook, offline HTML, summary.json, new workbooks, command line.
+deterministic notebook, offline HTML, <name>.summary.json, new workbooks, command line.
 
 The expected numbers come from tests/data/tiny.ipynb worked by hand:
 area = width * count * factor, factor 1 for "flat" and 2 for "round"; with
@@ -316,13 +316,15 @@ def test_failing_cell_writes_notebook_and_raises(tmp_path):
     nbformat.write(nb, str(src / "broken.ipynb"))
     out = tmp_path / "out"
     out.mkdir()
-    (out / "summary.json").write_text("{}")            # stale, from an earlier run
+    (out / "broken.summary.json").write_text("{}")            # from an earlier run: kept as it was
     with pytest.raises(WorkbookExecutionError) as e:
         render(src / "broken.ipynb", out, progress=False)
     msg = str(e.value)
     assert "broken.ipynb failed in cell 5 (id boom): RuntimeError: deliberate failure at area 30" in msg
-    assert e.value.notebook == out / "broken.ipynb" and e.value.notebook.is_file()
+    assert e.value.notebook == out / "broken.failed.ipynb" and e.value.notebook.is_file()
     executed = nbformat.read(str(e.value.notebook), as_version=4)
     errors = [o for c in executed.cells if c.cell_type == "code" for o in c.outputs if o.output_type == "error"]
     assert len(errors) == 1 and errors[0].evalue == "deliberate failure at area 30"
-    assert sorted(p.name for p in out.iterdir()) == ["broken.ipynb"]   # no report, stale summary removed
+    # no new report; the earlier summary is untouched, no staging folder or lock is left
+    assert sorted(p.name for p in out.iterdir()) == ["broken.failed.ipynb", "broken.summary.json"]
+    assert (out / "broken.summary.json").read_text() == "{}"

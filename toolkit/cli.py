@@ -10,7 +10,7 @@ export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] --out 
     integration-point values (cell data) as a VTK XML unstructured grid.
 render WORKBOOK [--set name=value ...] [--params file.json] [TITLE] [--pdf] --out DIR
     Execute a workbook with its parameters and write the executed notebook,
-    an offline HTML report and summary.json (toolkit.workbook); with
+    an offline HTML report and <name>.summary.json (toolkit.workbook); with
     ``--pdf`` also a PDF of the report (needs a headless Chromium).
 new TEMPLATE NAME [TITLE] --out DIR
     Start a workbook for a new component from one of the templates.
@@ -25,16 +25,22 @@ demo [--out reports] [--recovery-only]
 
 Exit codes: 0 done (a FAIL in a check is still a written report); 2 bad
 input (a :class:`toolkit.errors.StresspathError` or an ``OSError``: one line
-``error: <reason>`` on stderr, no output file written); 1 a workbook cell
-failed (one line; the executed notebook holds the traceback), or an internal
-error: anything else is a bug in the toolkit, shown with its traceback and a
-request to report it; 130 interrupted.  Each subcommand is added by one
+``error: <reason>`` on stderr, no output file written or changed; an output
+that is one of the inputs is bad input); 1 a workbook cell failed (one line;
+``<name>.failed.ipynb`` holds the traceback, an earlier report is left as it
+was), or an internal error: anything else is a bug in the toolkit, shown with
+its traceback and a request to report it; 130 interrupted (Ctrl-C or
+SIGTERM: one line ``error: interrupted``, earlier outputs left as they were).
+Every output file is written whole or not at all (a temporary file renamed
+into place).  Each subcommand is added by one
 ``_add_<name>`` function, so new commands are one function each.
 """
 from __future__ import annotations
 
 import argparse
+import signal
 import sys
+import threading
 import time
 import traceback
 from pathlib import Path
@@ -137,9 +143,18 @@ def _recover_stage(args, field, prog):
 # ---------------------------------------------------------------------------
 # Commands
 # ---------------------------------------------------------------------------
+def _refuse_input_as_output(args):
+    """Exit 2 before anything runs if ``--out`` is the input or one of the files read from it."""
+    from toolkit.io.files import refuse_input_as_output
+    from toolkit.io.neutral import result_files
+
+    refuse_input_as_output(args.out, result_files(args.results))
+
+
 def _cmd_recover(args) -> int:
     from toolkit.io import write_nodal_csv
 
+    _refuse_input_as_output(args)
     prog = _progress(args, 3)
     try:
         mesh, field = _read(args, prog)
@@ -155,6 +170,7 @@ def _cmd_recover(args) -> int:
 def _cmd_export_vtu(args) -> int:
     from toolkit.io import write_vtu
 
+    _refuse_input_as_output(args)
     prog = _progress(args, 3 if args.method != "none" else 2)
     try:
         mesh, field = _read(args, prog)
@@ -278,9 +294,9 @@ def _add_demo(sub):
 
 
 def _add_render(sub):
-    p = sub.add_parser("render", help="run a workbook and write notebook, HTML report and summary.json",
+    p = sub.add_parser("render", help="run a workbook and write notebook, HTML report and summary",
                        description="Run a workbook with parameters; write <name>.ipynb, <name>.html "
-                                   "and summary.json into --out.")
+                                   "and <name>.summary.json into --out.")
     p.add_argument("workbook", help="workbook name in workbooks/ or path to an .ipynb")
     p.add_argument("--set", dest="assignments", action="append", default=[], metavar="NAME=VALUE",
                    help="set a parameter (value read as JSON where possible, else as text); repeatable")
@@ -344,6 +360,29 @@ def main(argv=None) -> int:
     if getattr(args, "func", None) is None:
         parser.print_help(sys.stderr)
         return 2
+    with _sigterm_interrupts():
+        return _run(args)
+
+
+def _raise_interrupt(signum, frame):
+    raise KeyboardInterrupt
+
+
+class _sigterm_interrupts:
+    """SIGTERM raises KeyboardInterrupt while a command runs (so it cleans up
+    like Ctrl-C and exits 130); the previous handler is restored after."""
+
+    def __enter__(self):
+        self.installed = threading.current_thread() is threading.main_thread()
+        if self.installed:
+            self.old = signal.signal(signal.SIGTERM, _raise_interrupt)
+
+    def __exit__(self, *exc):
+        if self.installed:
+            signal.signal(signal.SIGTERM, self.old if self.old is not None else signal.SIG_DFL)
+
+
+def _run(args) -> int:
     try:
         return int(args.func(args) or 0)
     except WorkbookExecutionError as e:          # a cell failed: the executed notebook shows where

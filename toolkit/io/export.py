@@ -4,7 +4,6 @@ integration-point values as a VTK XML unstructured grid (``.vtu``, through
 meshio, imported when called)."""
 from __future__ import annotations
 
-import os
 from pathlib import Path
 
 import numpy as np
@@ -13,7 +12,7 @@ from toolkit.errors import InputError
 from toolkit.core.elements import ELEMENTS
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.core.mesh import Mesh
-from toolkit.io.files import temp_beside
+from toolkit.io.files import replacing
 from toolkit.io.neutral import check_component_names
 from toolkit.io.table import float_cells, int_cells, write_csv
 
@@ -88,15 +87,8 @@ def write_vtu(path, mesh: Mesh, nodal: NodalField | None = None, field: GaussFie
     m = meshio.Mesh(pts, [(b.element.vtk_cell_type, cells[b.name]) for b in mesh.blocks],
                     point_data=point_data, cell_data=cell_data)
     path = Path(path)
-    fd, tmp = temp_beside(path, ".vtu")
-    os.close(fd)
-    try:
+    with replacing(path, ".vtu") as tmp:
         meshio.write(tmp, m, file_format="vtu")
-        os.replace(tmp, path)
-    except BaseException:
-        if os.path.exists(tmp):
-            os.unlink(tmp)
-        raise
     return path
 
 

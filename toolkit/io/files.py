@@ -1,16 +1,18 @@
 """Files on disk for the io writers and readers: a UTF-8 text file read with
 an error that names the file, and safe writing through a temporary file
 beside the target that is renamed over it only when complete, so a failure
-never leaves a half-written output."""
+never leaves a half-written output, and the check that an output is not one
+of the command's inputs."""
 from __future__ import annotations
 
 import os
 import tempfile
+from contextlib import contextmanager
 from pathlib import Path
 
 from toolkit.errors import InputError
 
-__all__ = ["read_text", "temp_beside", "atomic_write"]
+__all__ = ["read_text", "temp_beside", "replacing", "atomic_write", "same_file", "refuse_input_as_output"]
 
 
 def read_text(path: Path) -> str:
@@ -35,16 +37,48 @@ def temp_beside(path: Path, suffix: str):
     return fd, tmp
 
 
-def atomic_write(path: Path, writer, binary=False):
-    """Write through a temporary file in the same folder, then rename, so
-    that a failure never leaves a half-written file."""
+@contextmanager
+def replacing(path, suffix: str = ".tmp"):
+    """Context for writing ``path`` whole or not at all: yields the name of a
+    temporary file beside it (for writers that take a file name); when the
+    block ends normally the temporary file is renamed over ``path``, on any
+    error or interruption it is removed and ``path`` is left as it was."""
     path = Path(path)
-    fd, tmp = temp_beside(path, ".tmp")
+    fd, tmp = temp_beside(path, suffix)
+    os.close(fd)
     try:
-        with os.fdopen(fd, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8", "newline": "\n"})) as f:
-            writer(f)
+        yield tmp
         os.replace(tmp, path)
-    except BaseException:
+    except BaseException as e:
         if os.path.exists(tmp):
             os.unlink(tmp)
+        if isinstance(e, OSError) and e.filename is None and e.errno is not None:   # e.g. a full disk:
+            raise OSError(e.errno, e.strerror, str(path)) from None                 # name the file
         raise
+
+
+def atomic_write(path: Path, writer, binary=False):
+    """Write through a temporary file in the same folder, then rename, so
+    that a failure never leaves a half-written file (see :func:`replacing`);
+    ``writer(f)`` writes to the open file (text: UTF-8, ``\\n`` line ends)."""
+    with replacing(path) as tmp:
+        with open(tmp, "wb" if binary else "w", **({} if binary else {"encoding": "utf-8", "newline": "\n"})) as f:
+            writer(f)
+
+
+def same_file(a, b) -> bool:
+    """Whether paths ``a`` and ``b`` name one file (after resolving links; an
+    existing pair is compared by device and inode, so hard links count)."""
+    a, b = Path(a), Path(b)
+    try:
+        return os.path.samefile(a, b)
+    except OSError:
+        return a.resolve() == b.resolve()
+
+
+def refuse_input_as_output(out, inputs, what="--out"):
+    """InputError if the output ``out`` is one of the files in ``inputs`` (or
+    an input folder itself): an output never overwrites what it is made from."""
+    for p in inputs:
+        if same_file(out, p):
+            raise InputError(f"{what} {out} is an input of this command ({p}); choose another output")

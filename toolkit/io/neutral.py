@@ -39,7 +39,7 @@ from toolkit.io.points import POINT_TOL, candidate_rule, match_points, rule_spec
 from toolkit.io.table import EMPTY, Table, first_duplicate, first_true, float_cells, int_cells, read_csv, write_csv
 
 __all__ = ["NODES_FILE", "ELEMENTS_FILE", "GAUSS_FILE", "ABOUT_FILE", "RESERVED", "MAX_POINTS",
-           "read_results", "write_results", "read_mesh", "read_about", "check_component_names"]
+           "read_results", "write_results", "read_mesh", "read_about", "check_component_names", "result_files"]
 
 #: Most integration points one element may carry in an imported file.
 MAX_POINTS = 512
@@ -154,6 +154,16 @@ def read_mesh(path) -> Mesh:
     if path.suffix.lower() == ".npz":
         return read_npz(path)[0]
     return _read_mesh_folder(path)[0]
+
+
+def result_files(path):
+    """The paths :func:`read_results` reads for ``path``: the ``.npz`` file,
+    or the folder and its four files (so a writer can refuse to overwrite
+    any of them)."""
+    path = Path(path)
+    if path.suffix.lower() == ".npz":
+        return [path]
+    return [path] + [path / f for f in (NODES_FILE, ELEMENTS_FILE, GAUSS_FILE, ABOUT_FILE)]
 
 
 def read_results(path, point_tol: float = POINT_TOL):

@@ -14,7 +14,7 @@ formatted to 6 significant digits, or the ``digits`` a value was recorded
 with) and embeds the exact data in that output's
 *metadata* under the key ``"stresspath"``; ``toolkit.workbook.render``
 extracts it from the executed notebook (:func:`read_summary`) and writes
-``summary.json``.  This needs no file and no agreed working directory, it
+``<name>.summary.json``.  This needs no file and no agreed working directory, it
 survives in the stored ``.ipynb``, and strict ``pytest --nbval`` never
 compares output metadata, so full-precision floats cannot break it while the
 formatted table is still compared.  A workbook calls ``save()`` exactly once.
@@ -34,6 +34,7 @@ from importlib.resources import files
 from pathlib import Path
 
 from toolkit.errors import InputError, WorkbookError
+from toolkit.io.files import atomic_write
 from toolkit.report.format import DIMENSIONLESS, first_non_finite, fmt, json_text, plain
 
 __all__ = ["Summary", "inputs_hash", "inputs_record", "input_dirs", "find_input", "input_path", "file_digest",
@@ -173,7 +174,7 @@ def inputs_record(params, dirs=None, sn_path=None) -> dict:
 
 
 class Summary:
-    """The results a workbook hands to ``toolkit.workbook.render`` for ``summary.json``.
+    """The results a workbook hands to ``toolkit.workbook.render`` for ``<name>.summary.json``.
 
     Parameters
     ----------
@@ -286,7 +287,7 @@ class Summary:
         """
         data = self.to_dict()
         if path is not None:
-            Path(path).write_text(json_text(data), encoding="utf-8")
+            atomic_write(Path(path), lambda f: f.write(json_text(data)))
         try:
             from IPython import get_ipython
         except ImportError:  # plain Python, no IPython installed

@@ -1,6 +1,6 @@
 """Layer 6: parameterised notebooks.  The parameters-cell grammar
 (``parameters``), notebook files and injection (``notebook``), the run's
-title fields (``title``), execution in a fresh kernel with ``summary.json``
+title fields (``title``), execution in a fresh kernel with ``<name>.summary.json``
 (``execute``), the offline HTML report with the verdict filled in (``html``),
 its PDF (``pdf``), ``new`` and ``demo`` (``create``); the summary record, the
 title block and the verdict themselves live in :mod:`toolkit.report`."""

@@ -18,6 +18,7 @@ import time
 from pathlib import Path
 
 from toolkit.errors import WorkbookError, WorkbookExecutionError
+from toolkit.io.files import same_file
 from toolkit.workbook.execute import render
 from toolkit.workbook.notebook import (WORKBOOKS_DIR, clean_notebook, clear_outputs, drop_injected, ensure_ids,
                                        known_workbooks, parameters_cell, read_notebook, write_notebook)
@@ -62,7 +63,7 @@ def new_workbook(template, name, out_dir, source_dir=None, overwrite=False, titl
     name : str
         The component; also the file name.
     overwrite : bool
-        Replace an existing file (default: refuse).
+        Replace an existing file (default: refuse); the template itself is never replaced.
     title : dict, optional
         Title fields (project, document, component, revision, prepared_by, checked_by, date).
     title_file : str or Path, optional
@@ -102,6 +103,8 @@ def new_workbook(template, name, out_dir, source_dir=None, overwrite=False, titl
     ensure_ids(nb)
     out = Path(out_dir)
     target = out / f"{name}.ipynb"
+    if same_file(target, src):
+        raise WorkbookError(f"{target} is the template itself; choose another --out")
     if target.exists() and not overwrite:
         raise WorkbookError(f"{target} exists; choose another name or remove it first")
     out.mkdir(parents=True, exist_ok=True)

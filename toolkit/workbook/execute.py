@@ -7,12 +7,12 @@ a cell tagged ``injected-parameters`` right after it, executes the notebook in
 a fresh ``python3`` kernel of the current interpreter and writes, into the
 output folder::
 
-    <name>.ipynb    the executed notebook (deterministic: two runs with the same
-                    inputs give byte-identical files)
-    <name>.html     a self-contained report that opens with no network
-    summary.json    the results the workbook recorded with ``Summary``
+    <name>.ipynb          the executed notebook (deterministic: two runs with the
+                          same inputs give byte-identical files)
+    <name>.html           a self-contained report that opens with no network
+    <name>.summary.json   the results the workbook recorded with ``Summary``
 
-The final ``summary.json``::
+The final ``<name>.summary.json``::
 
     {"workbook": name, "title": {...}, "toolkit_version": ..., "inputs_hash": ...,
      "parameters": {...}, "inputs": {"files": {...}, "sn_data": ..., "toolkit_version": ...},
@@ -29,13 +29,23 @@ taken before the kernel starts; ``inputs_hash`` is ``inputs_hash(parameters,
 inputs)``.  If the workbook passed ``parameters=`` to ``Summary``, render
 checks they equal the run's parameters and that the record the kernel saw
 equals its own, so the hash printed in the workbook's footer
-(``report.footer``) is the one in summary.json.
+(``report.footer``) is the one in the summary file.
 
 Re-running: given an executed notebook, render starts from the values it was
 rendered with (its summary record, else its injected cell); ``params_file``
 and ``params`` win, name by name.  ``params_file`` may be a run's
 summary.json: its ``parameters`` are used and its workbook must be this one.
 The notebook is validated (nbformat) before anything runs.
+
+Nothing is lost: the three files are written into a staging folder inside the
+output folder and renamed into place only after the whole run succeeded, so a
+failed cell, a timeout, a full disk, Ctrl-C or SIGTERM leave an earlier report
+exactly as it was (a failed run writes ``<name>.failed.ipynb`` with the
+traceback instead).  A lock file in the output folder (``.render.lock``,
+holding the pid) keeps a second render out of the folder while one runs; a
+lock left by a process that is gone is taken over.  render never writes over
+the workbook it runs, nor over a notebook in the output folder that is not a
+report from render (one without ``<name>.html`` beside it).
 
 Kernel working directory: :func:`render` runs the kernel in the output folder,
 so any file a workbook writes lands beside its report, never in
@@ -49,6 +59,7 @@ The notebook libraries (nbformat, nbclient, tqdm) are imported when needed.
 from __future__ import annotations
 
 import json
+import math
 import os
 import sys
 import time
@@ -56,6 +67,7 @@ from dataclasses import dataclass
 from pathlib import Path
 
 from toolkit.errors import WorkbookError, WorkbookExecutionError
+from toolkit.io.files import atomic_write
 from toolkit.report.format import json_text, plain
 from toolkit.report.summary import CALLER_DIR_ENV, WORKBOOK_DIR_ENV, inputs_hash, inputs_record, read_summary
 from toolkit.report.tables import HEADLESS_ENV
@@ -180,12 +192,70 @@ def _inject(run: _Run):
     nb.metadata["kernelspec"] = dict(KERNELSPEC)
 
 
-def _execute(run: _Run, nb_path, timeout, progress) -> int:
+def _client_class():
+    """An nbclient ``NotebookClient`` that leaves SIGINT and SIGTERM to the
+    caller: nbclient's own handlers only schedule a kernel shutdown, so the
+    run would end as "the kernel died" instead of as an interruption.  This is
+    nbclient's ``async_setup_kernel`` without its signal handlers and exit
+    hook; :func:`_stop_kernel` stops the kernel however the run ends."""
+    from contextlib import asynccontextmanager
+
+    from nbclient import NotebookClient
+
+    class _Client(NotebookClient):
+        @asynccontextmanager
+        async def async_setup_kernel(self, **kwargs):
+            import asyncio
+
+            self.stresspath_loop = asyncio.get_running_loop()
+            cleanup_kc = kwargs.pop("cleanup_kc", self.owns_km)
+            if self.km is None:
+                self.km = self.create_kernel_manager()
+            if not self.km.has_kernel:
+                await self.async_start_new_kernel(**kwargs)
+            if self.kc is None:
+                await self.async_start_new_kernel_client()
+            try:
+                yield
+            finally:
+                if cleanup_kc:
+                    await self._async_cleanup_kernel()
+
+    return _Client
+
+
+def _stop_kernel(client):
+    """Stop the client's kernel if it still runs: after an interruption the
+    event loop stopped mid-run, so the kernel process is killed directly and
+    the run's unfinished task is cancelled."""
+    import asyncio
+
+    km = getattr(client, "km", None)
+    if km is None:
+        return
+    proc = getattr(getattr(km, "provisioner", None), "process", None)
+    if proc is not None and proc.poll() is None:
+        proc.kill()
+        proc.wait(10)
+    loop = getattr(client, "stresspath_loop", None)
+    if loop is not None and not loop.is_running() and not loop.is_closed():
+        tasks = [t for t in asyncio.all_tasks(loop) if not t.done()]
+        for t in tasks:
+            t.cancel()
+        if tasks:
+            loop.run_until_complete(asyncio.gather(*tasks, return_exceptions=True))
+    if getattr(client, "kc", None) is not None:
+        client.kc.stop_channels()
+    if getattr(client, "km", None) is not None:
+        client.km.cleanup_connection_file()
+
+
+def _execute(run: _Run, failed_path, timeout, progress) -> int:
     """Step 3: execute the notebook in a fresh kernel working in the output
     folder; returns the number of code cells.  If a cell fails, the cleaned
-    notebook with the traceback is written to ``nb_path`` and
-    WorkbookExecutionError is raised."""
-    from nbclient import NotebookClient
+    notebook with the traceback is written to ``failed_path`` and
+    WorkbookExecutionError is raised.  The kernel is stopped in every case
+    (a failure, Ctrl-C, SIGTERM)."""
     from nbclient.exceptions import CellExecutionError, CellTimeoutError, DeadKernelError
     from tqdm import tqdm
 
@@ -200,12 +270,14 @@ def _execute(run: _Run, nb_path, timeout, progress) -> int:
     def on_executed(cell, cell_index, execute_reply):  # after the reply, unlike on_cell_complete
         bar.update(1)
 
-    client = NotebookClient(nb, kernel_name="python3", timeout=timeout, record_timing=False,
-                            kernel_manager_class=_kernel_manager_class(),
-                            # the kernel app's own start-up warnings (not cell output) stay quiet
-                            extra_arguments=["--IPKernelApp.log_level=ERROR"],
-                            resources={"metadata": {"path": str(run.out)}},
-                            on_cell_start=on_start, on_cell_executed=on_executed)
+    timeout = math.ceil(timeout)     # nbclient takes whole seconds (a float such as 2.5 was refused)
+    client = _client_class()(nb, kernel_name="python3", timeout=timeout, record_timing=False,
+                             kernel_manager_class=_kernel_manager_class(),
+                             # the kernel app's own start-up warnings (not cell output) stay quiet
+                             extra_arguments=["--IPKernelApp.log_level=ERROR"],
+                             shutdown_kernel="immediate",   # a timed-out cell need not be waited for
+                             resources={"metadata": {"path": str(run.out)}},
+                             on_cell_start=on_start, on_cell_executed=on_executed)
     env = dict(os.environ)
     env[WORKBOOK_DIR_ENV] = str(run.path.parent)
     env[CALLER_DIR_ENV] = os.getcwd()    # the kernel finds imported files where render did (inputs hash)
@@ -216,7 +288,7 @@ def _execute(run: _Run, nb_path, timeout, progress) -> int:
     except (CellExecutionError, CellTimeoutError, DeadKernelError) as e:
         bar.close()
         clean_notebook(nb)
-        write_notebook(nb, nb_path)
+        write_notebook(nb, failed_path)
         i = current["index"]
         where = f"cell {i + 1} (id {nb.cells[i].get('id')})" if i is not None else "start-up"
         if isinstance(e, CellExecutionError):
@@ -226,16 +298,18 @@ def _execute(run: _Run, nb_path, timeout, progress) -> int:
         else:
             reason = "the kernel died"
         raise WorkbookExecutionError(f"{run.label} failed in {where}: {reason}; the executed notebook with the "
-                                     f"traceback is {nb_path}", notebook=nb_path) from None
-    bar.close()
+                                     f"traceback is {failed_path} (an earlier report is left as it was)",
+                                     notebook=failed_path) from None
+    finally:
+        bar.close()
+        _stop_kernel(client)
     clean_notebook(nb)
-    write_notebook(nb, nb_path)
     return n_code
 
 
 def _write_report(run: _Run, html_path, sum_path) -> dict:
     """Step 4: the summary the workbook saved, checked against the run's
-    parameters, written as ``summary.json`` beside the offline HTML report."""
+    parameters, written as ``<name>.summary.json`` beside the offline HTML report."""
     label = run.label
     try:
         data = read_summary(run.nb)
@@ -257,14 +331,106 @@ def _write_report(run: _Run, html_path, sum_path) -> dict:
     summary = {"workbook": run.name, "title": run.title, "toolkit_version": __version__,
                "inputs_hash": inputs_hash(run_params, run.inputs), "parameters": run_params,
                "inputs": run.inputs, "values": data["values"], "checks": data["checks"]}
-    html_path.write_text(notebook_html(run.nb, run.name, summary, run.title), encoding="utf-8", newline="\n")
-    sum_path.write_text(json_text(summary), encoding="utf-8", newline="\n")
+    atomic_write(html_path, lambda f: f.write(notebook_html(run.nb, run.name, summary, run.title)))
+    atomic_write(sum_path, lambda f: f.write(json_text(summary)))
     return summary
+
+
+#: The lock file render holds in its output folder while it writes there.
+LOCK_FILE = ".render.lock"
+
+
+def _pid_alive(pid: int) -> bool:
+    """Whether process ``pid`` runs (on Windows, where signal 0 would end it, assume so)."""
+    if os.name == "nt":
+        return True
+    try:
+        os.kill(pid, 0)
+    except ProcessLookupError:
+        return False
+    except PermissionError:          # another user's live process
+        return True
+    return True
+
+
+class _FolderLock:
+    """The output folder's lock file, created exclusively and holding the pid;
+    a lock whose process is gone is taken over, a live one refused."""
+
+    def __init__(self, folder: Path):
+        self.path = folder / LOCK_FILE
+        self.held = False
+
+    def __enter__(self):
+        for _ in range(50):             # an empty lock is being written just now: look again
+            try:
+                fd = os.open(self.path, os.O_CREAT | os.O_EXCL | os.O_WRONLY, 0o644)
+            except FileExistsError:
+                try:
+                    pid = int(self.path.read_text().strip() or 0)
+                except (OSError, ValueError):
+                    pid = 0
+                if pid and _pid_alive(pid):
+                    raise WorkbookError(f"another render is writing into {self.path.parent} (pid {pid}); "
+                                        f"wait for it or choose another --out (if none runs, remove "
+                                        f"{self.path})") from None
+                if pid:
+                    self.path.unlink(missing_ok=True)       # stale: its process is gone
+                else:
+                    time.sleep(0.1)
+                continue
+            with os.fdopen(fd, "w") as f:
+                f.write(f"{os.getpid()}\n")
+            self.held = True
+            return self
+        raise WorkbookError(f"cannot take the lock {self.path}; remove it if no render is running")
+
+    def __exit__(self, *exc):
+        if self.held:
+            self.path.unlink(missing_ok=True)
+
+
+def _report_paths(out: Path, name: str) -> dict:
+    """The files a run writes: the report (notebook, HTML, summary) and the failed notebook."""
+    return {"notebook": out / f"{name}.ipynb", "html": out / f"{name}.html",
+            "summary": out / f"{name}.summary.json", "failed": out / f"{name}.failed.ipynb"}
+
+
+def _check_targets(run: _Run, paths: dict):
+    """Refuse (WorkbookError, nothing written) to write over the workbook
+    itself or over a notebook in the output folder that is not a report from
+    render (one with no ``<name>.html`` beside it, e.g. a workbook made by ``new``)."""
+    from toolkit.io.files import same_file
+
+    for p in paths.values():
+        if same_file(p, run.path):
+            raise WorkbookError(f"{p} is the workbook being rendered; choose another --out")
+    nb_path = paths["notebook"]
+    if nb_path.exists() and not paths["html"].exists():
+        raise WorkbookError(f"{nb_path} exists and is not a report from render (no {paths['html'].name} beside "
+                            f"it); choose another --out or move it")
+
+
+def _install(staged: dict, paths: dict):
+    """Rename the staged report files into place, with SIGINT and SIGTERM held
+    back so an interruption cannot leave a mixed report."""
+    import signal
+
+    block = hasattr(signal, "pthread_sigmask")
+    if block:
+        old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT, signal.SIGTERM})
+    try:
+        for key, tmp in staged.items():
+            os.replace(tmp, paths[key])
+        paths["failed"].unlink(missing_ok=True)      # an earlier failure's notebook is now out of date
+    finally:
+        if block:
+            signal.pthread_sigmask(signal.SIG_SETMASK, old)
 
 
 def render(workbook, out_dir, params=None, params_file=None, timeout=600, progress=True, title=None,
            title_file=None) -> RenderResult:
-    """Run a workbook with parameters and write ``<name>.ipynb``, ``<name>.html`` and ``summary.json``.
+    """Run a workbook with parameters and write ``<name>.ipynb``, ``<name>.html`` and ``<name>.summary.json``.
 
     Parameters
     ----------
@@ -278,7 +444,7 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
     params_file : str or Path, optional
         A JSON object of parameter values, or a run's summary.json (its ``parameters``).
     timeout : float
-        Seconds allowed per cell.
+        Seconds allowed per cell (rounded up to whole seconds).
     progress : bool
         Show a progress bar over the code cells (stderr).
     title : dict, optional
@@ -290,20 +456,34 @@ def render(workbook, out_dir, params=None, params_file=None, timeout=600, progre
         A JSON object of title fields.
 
     Every given value is checked against the parameters cell before anything
-    runs (:class:`ParameterError`, nothing written).  If a cell fails, the
-    executed notebook with the traceback is still written, any report and
-    summary.json from an earlier run in ``out_dir`` are removed, and
-    :class:`WorkbookExecutionError` is raised.
+    runs (:class:`ParameterError`, nothing written).  The report files are
+    written into a staging folder inside ``out_dir`` and renamed into place
+    only when the whole run succeeded, so an earlier report stays as it was
+    after any failure or interruption.  If a cell fails, the executed notebook
+    with the traceback is written as ``<name>.failed.ipynb`` and
+    :class:`WorkbookExecutionError` is raised.  While it runs, render holds a
+    lock file in ``out_dir``; a second render into the same folder is refused.
     """
+    import shutil
+    import tempfile
+
     t0 = time.perf_counter()
     run = _check_run(workbook, out_dir, params, params_file)
     run.title = run_title(run.nb, title, title_file)
     _inject(run)
     out, name = run.out, run.name
+    paths = _report_paths(out, name)
+    _check_targets(run, paths)
     out.mkdir(parents=True, exist_ok=True)
-    nb_path, html_path, sum_path = out / f"{name}.ipynb", out / f"{name}.html", out / "summary.json"
-    for stale in (html_path, sum_path):
-        stale.unlink(missing_ok=True)
-    n_code = _execute(run, nb_path, timeout, progress)
-    summary = _write_report(run, html_path, sum_path)
-    return RenderResult(name, nb_path, html_path, sum_path, run.values, summary, time.perf_counter() - t0, n_code)
+    with _FolderLock(out):
+        stage = Path(tempfile.mkdtemp(prefix=f".{name}.staging-", dir=out))
+        try:
+            n_code = _execute(run, paths["failed"], timeout, progress)
+            staged = {k: stage / paths[k].name for k in ("notebook", "html", "summary")}
+            write_notebook(run.nb, staged["notebook"])
+            summary = _write_report(run, staged["html"], staged["summary"])
+            _install(staged, paths)
+        finally:
+            shutil.rmtree(stage, ignore_errors=True)
+    return RenderResult(name, paths["notebook"], paths["html"], paths["summary"], run.values, summary,
+                        time.perf_counter() - t0, n_code)

@@ -12,6 +12,7 @@ from importlib.resources import files
 from pathlib import Path
 
 from toolkit.errors import WorkbookError
+from toolkit.io.files import atomic_write
 from toolkit.workbook.parameters import parse_parameters
 
 __all__ = ["WORKBOOKS_DIR", "PARAMETERS_TAG", "INJECTED_TAG", "INJECTED_CELL_ID", "WIDGET_VIEW_MIME",
@@ -114,12 +115,12 @@ def recorded_parameters(nb, label):
 
 
 def write_notebook(nb, path):
-    """Validate ``nb`` and write it to ``path`` (UTF-8, ``\\n`` line ends)."""
+    """Validate ``nb`` and write it to ``path`` (UTF-8, ``\\n`` line ends),
+    whole or not at all (through a temporary file beside it)."""
     import nbformat
 
     nbformat.validate(nb)
-    with open(path, "w", encoding="utf-8", newline="\n") as f:
-        nbformat.write(nb, f)
+    atomic_write(Path(path), lambda f: nbformat.write(nb, f))
 
 
 def drop_injected(nb):

@@ -16,6 +16,7 @@ import numpy as np
 
 from toolkit.core.fields import GaussField
 from toolkit.io import write_nodal_csv
+from toolkit.io.files import atomic_write
 from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
 from toolkit.recovery import average_nodal, project_l2
@@ -98,7 +99,7 @@ def run_demo(out="reports/recovery", quiet=False):
     contour_nodal(results["average"], "sxx", axes[1], vmin=lo, vmax=hi, title="sxx, nodal averaging")
     contour_nodal(nodal, "sxx", axes[2], vmin=lo, vmax=hi, title="sxx, global L2 projection")
     fig.suptitle("Plate with a hole, Kirsch field at 2x2 Gauss points of quad8 cells (MPa)")
-    fig.savefig(out / "plate_hole_recovery.png", dpi=110)
+    atomic_write(out / "plate_hole_recovery.png", lambda f: fig.savefig(f, format="png", dpi=110), binary=True)
     plt.close(fig)
     say(f"\nwrote {out / 'plate_hole_nodal_l2.csv'} and {out / 'plate_hole_recovery.png'}")
     return table
