@@ -40,7 +40,7 @@ def rendered(tmp_path_factory):
         argv += [k, v]
     assert main(argv) == 0
     html = (out / "plate_with_hole.html").read_text(encoding="utf-8")
-    summary = json.loads((out / "summary.json").read_text(encoding="utf-8"))
+    summary = json.loads((out / "plate_with_hole.summary.json").read_text(encoding="utf-8"))
     return out, html, summary
 
 
