@@ -258,19 +258,26 @@ def test_point_outside_its_element_is_reported(tmp_path):
     assert "gauss.csv, row 21 (line 22)" in msg and f"element {c[0]}" in msg and "outside" in msg
 
 
-def test_mismatched_point_sets_are_reported(tmp_path):
-    mesh = rectangle_mesh("quad4", 3, 1)
-    f = GaussField(mesh, {"quad4": np.ones((3, 4, 1))}, ("s",))
-    write_results(tmp_path, mesh, f)
-    header, rows = _rows(tmp_path / "gauss.csv")
-    # element 1 gets its four points at ±0.3 instead of ±1/√3
-    x = mesh.geometry("quad4", np.array([[-.3, -.3], [.3, -.3], [-.3, .3], [.3, .3]])).x_cqi[1]
+def _move_element_1_points(folder, mesh, natural):
+    """Rewrite the coordinates of element 1's four points in ``folder/gauss.csv``
+    to the physical places of ``natural`` (4, 2), and drop about.json so the
+    reader must match the points by their coordinates."""
+    header, rows = _rows(folder / "gauss.csv")
+    x = mesh.geometry("quad4", natural).x_cqi[1]
     for p in range(4):
         c = rows[4 + p].split(",")
         c[2], c[3] = repr(float(x[p, 0])), repr(float(x[p, 1]))
         rows[4 + p] = ",".join(c)
-    (tmp_path / "gauss.csv").write_text(header + "\n" + "\n".join(rows) + "\n")
-    (tmp_path / "about.json").unlink()
+    (folder / "gauss.csv").write_text(header + "\n" + "\n".join(rows) + "\n")
+    (folder / "about.json").unlink()
+
+
+def test_mismatched_point_sets_are_reported(tmp_path):
+    mesh = rectangle_mesh("quad4", 3, 1)
+    f = GaussField(mesh, {"quad4": np.ones((3, 4, 1))}, ("s",))
+    write_results(tmp_path, mesh, f)
+    # element 1 gets its four points at ±0.3 instead of ±1/√3
+    _move_element_1_points(tmp_path, mesh, np.array([[-.3, -.3], [.3, -.3], [-.3, .3], [.3, .3]]))
     with pytest.raises(ValueError, match=r"gauss\.csv, row 5 \(line 6\): point 1 of element 1 .*same set of points"):
         read_results(tmp_path)
 
@@ -637,16 +644,8 @@ def test_point_matching_tolerance_is_a_hundredth_in_natural_coordinates(tmp_path
     mesh = rectangle_mesh("quad4", 3, 1)
     f = GaussField(mesh, {"quad4": np.arange(12.0).reshape(3, 4, 1)}, ("s",))
     write_results(tmp_path, mesh, f)
-    header, rows = _rows(tmp_path / "gauss.csv")
     g = 1 / np.sqrt(3)
-    moved = np.array([[-g, -g], [g, -g], [-g, g], [g, g]]) + [shift, 0.0]
-    x = mesh.geometry("quad4", moved).x_cqi[1]
-    for p in range(4):
-        c = rows[4 + p].split(",")
-        c[2], c[3] = repr(float(x[p, 0])), repr(float(x[p, 1]))
-        rows[4 + p] = ",".join(c)
-    (tmp_path / "gauss.csv").write_text(header + "\n" + "\n".join(rows) + "\n")
-    (tmp_path / "about.json").unlink()
+    _move_element_1_points(tmp_path, mesh, np.array([[-g, -g], [g, -g], [-g, g], [g, g]]) + [shift, 0.0])
     if accepted:
         _, f2 = read_results(tmp_path)
         assert f2.rule_labels["quad4"] == mesh.block("quad4").element.full_rule.name

@@ -17,7 +17,6 @@ when shown (by :mod:`toolkit.report.format`).
 from __future__ import annotations
 
 import html
-import json
 import math
 from dataclasses import dataclass, field, replace
 from importlib.resources import files
@@ -25,8 +24,9 @@ from pathlib import Path
 
 import numpy as np
 
-from toolkit.errors import InputError
 from toolkit.core import stress as _stress
+from toolkit.errors import InputError
+from toolkit.io.files import read_json
 
 __all__ = [
     "CAUTION", "CheckResult", "Working", "SNCurve", "sn_curve", "load_sn_data", "SN_DATA_PATH",
@@ -265,12 +265,7 @@ class SNCurve:
 def load_sn_data(path=None) -> dict:
     """The S-N data file as a dict (default ``data/sn_curves.json``)."""
     p = Path(path) if path is not None else SN_DATA_PATH
-    if not p.is_file():
-        raise InputError(f"S-N curve data file not found: {p}")
-    try:
-        data = json.loads(p.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as e:
-        raise InputError(f"{p}: not valid JSON ({e})") from None
+    data = read_json(p, "S-N curve data file")
     for key in ("source", "edition", "reference_cycles", "families", "unit"):
         if key not in data:
             raise InputError(f"{p}: missing top-level key {key!r}")

@@ -5,6 +5,7 @@ never leaves a half-written output, and the check that an output is not one
 of the command's inputs."""
 from __future__ import annotations
 
+import json
 import os
 import tempfile
 from contextlib import contextmanager
@@ -12,7 +13,7 @@ from pathlib import Path
 
 from toolkit.errors import InputError
 
-__all__ = ["read_text", "temp_beside", "replacing", "atomic_write", "same_file", "refuse_input_as_output"]
+__all__ = ["read_text", "read_json", "temp_beside", "replacing", "atomic_write", "same_file", "refuse_input_as_output"]
 
 
 def read_text(path: Path) -> str:
@@ -24,6 +25,21 @@ def read_text(path: Path) -> str:
         raise InputError(f"{path}: not UTF-8 text (byte {e.start}: {e.reason})") from None
     except OSError as e:
         raise InputError(f"{path}: cannot be read ({e.strerror or e})") from None
+
+
+def read_json(path, what: str = "file"):
+    """The JSON value in ``path``; a missing file, unreadable text, invalid
+    JSON or nesting too deep raises one :class:`InputError` naming the file
+    (``what`` says which file it is, e.g. ``"S-N curve data file"``)."""
+    p = Path(path)
+    if not p.is_file():
+        raise InputError(f"{what} not found: {p}")
+    try:
+        return json.loads(read_text(p))
+    except json.JSONDecodeError as e:
+        raise InputError(f"{p}: not valid JSON (line {e.lineno}, column {e.colno}: {e.msg})") from None
+    except RecursionError:
+        raise InputError(f"{p}: nested too deeply") from None
 
 
 def temp_beside(path: Path, suffix: str):

@@ -17,6 +17,7 @@ import os
 from pathlib import Path
 
 from toolkit.errors import InputError
+from toolkit.io.files import read_json
 
 __all__ = ["TITLE_FIELDS", "TITLE_ENV", "NOT_GIVEN", "TitleBlock", "title_block", "title_from_env",
            "read_title_file", "complete_title"]
@@ -50,13 +51,7 @@ def _clean(values, where) -> dict:
 def read_title_file(path) -> dict:
     """The title fields of a JSON file such as ``{"project": "...", "document": "...", "revision": "B"}``."""
     p = Path(path)
-    if not p.is_file():
-        raise InputError(f"title file not found: {p}")
-    try:
-        data = json.loads(p.read_text(encoding="utf-8"))
-    except json.JSONDecodeError as e:
-        raise InputError(f"{p}: not valid JSON ({e})") from None
-    return _clean(data, str(p))
+    return _clean(read_json(p, "title file"), str(p))
 
 
 def complete_title(*sources) -> dict:
