@@ -286,9 +286,13 @@ def test_injected_cell_follows_the_parameters_cell(two_renders):
 
 def test_executed_notebook_is_deterministic(two_renders):
     a, b = two_renders
-    assert a.notebook.read_bytes() == b.notebook.read_bytes()
-    assert a.summary_path.read_bytes() == b.summary_path.read_bytes()
-    assert a.html.read_bytes() == b.html.read_bytes()
+    for pa, pb in ((a.notebook, b.notebook), (a.summary_path, b.summary_path), (a.html, b.html)):
+        ta, tb = pa.read_bytes(), pb.read_bytes()
+        if ta != tb:                      # say where, so a rare difference can be diagnosed
+            i = next(k for k in range(min(len(ta), len(tb))) if ta[k] != tb[k]) if ta[:len(tb)] != tb[:len(ta)] \
+                else min(len(ta), len(tb))
+            pytest.fail(f"{pa.name} differs between two identical renders at byte {i}:\n"
+                        f"{ta[max(0, i - 300):i + 300]!r}\n---\n{tb[max(0, i - 300):i + 300]!r}")
     nb = nbformat.read(str(a.notebook), as_version=4)
     assert "version" not in nb.metadata.language_info and "widgets" not in nb.metadata
     assert not any("execution" in c.metadata for c in nb.cells)
