@@ -41,7 +41,7 @@ def wheel(tmp_path_factory):
 def test_wheel_holds_the_data_and_the_workbooks(wheel):
     names = set(zipfile.ZipFile(wheel).namelist())
     for need in ("toolkit/data/sn_curves.json", "toolkit/data/SOURCES.md", "toolkit/data/demo_bracket/gauss.csv",
-                 "toolkit/data/demo_bracket/nodes.csv", "toolkit/workbooks/weld_toe.ipynb",
+                 "toolkit/data/demo_bracket/nodes.csv", "toolkit/data/demo_histories/weld_toe.csv", "toolkit/workbooks/weld_toe.ipynb",
                  "toolkit/workbooks/from_results.ipynb", "toolkit/workbook/templates/offline_report/index.html.j2",
                  "toolkit/core/elements.py", "toolkit/cli.py"):
         assert need in names, f"{need} missing from {wheel.name}"
