@@ -30,6 +30,10 @@ from toolkit.io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
 
+from toolkit.assess.ranges import tensor_range, principal_range, iiw_range, cycle_tensor_ranges  # noqa: E402
+
+__all__ += ["tensor_range", "principal_range", "iiw_range", "cycle_tensor_ranges"]
+
 from toolkit.fem import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402
 
 __all__ += ["Material", "Traction", "Pressure", "PointLoad", "Fixed", "Roller", "Displacement"]

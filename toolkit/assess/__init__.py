@@ -1,8 +1,9 @@
 """Layer 4: what the design rules ask for.  Paths and sampling along them,
-hot-spot stress and through-thickness linearisation, the Zienkiewicz-Zhu error
-indicator, grid convergence (Richardson, Roache's GCI), static and fatigue
-checks with S-N curves, and the closed forms and handbook fits the workbooks
-compare against."""
+hot-spot stress and through-thickness linearisation, stress ranges from
+tensors (principal range, the IIW rule at weld toes, cycles of a history), the
+Zienkiewicz-Zhu error indicator, grid convergence (Richardson, Roache's GCI),
+static and fatigue checks with S-N curves, and the closed forms and handbook
+fits the workbooks compare against."""
 from toolkit.core.locate import Location, PointLocator      # in core; beside the paths that use it
 from toolkit.assess.checks import (CAUTION, CheckResult, SNCurve, Working, fatigue_check, load_sn_data,
                                    miner_damage, sn_curve, static_check, thickness_factor)
@@ -10,6 +11,8 @@ from toolkit.assess.convergence import ConvergenceResult, grid_convergence, repr
 from toolkit.assess.hotspot import HOT_SPOT_RULES, hot_spot_concentration, hot_spot_stress, linearize
 from toolkit.assess.indicator import error_indicator
 from toolkit.assess.paths import arc, edge_path, line, path_from_spec, polyline
+from toolkit.assess.ranges import (IIW_ANGLE_LIMIT, IIWRange, PrincipalRange, cycle_tensor_ranges, iiw_range,
+                                   principal_range, tensor_range)
 from toolkit.assess.sampling import PathResult, raw_along, sample
 
 __all__ = ["CAUTION", "CheckResult", "SNCurve", "Working", "fatigue_check", "load_sn_data", "miner_damage", "sn_curve",
@@ -17,3 +20,5 @@ __all__ = ["CAUTION", "CheckResult", "SNCurve", "Working", "fatigue_check", "loa
            "HOT_SPOT_RULES", "hot_spot_concentration", "hot_spot_stress", "linearize", "error_indicator",
            "PathResult", "arc", "edge_path", "line", "path_from_spec", "polyline", "raw_along", "sample",
            "PointLocator", "Location"]
+__all__ += ["tensor_range", "principal_range", "PrincipalRange", "iiw_range", "IIWRange", "cycle_tensor_ranges",
+            "IIW_ANGLE_LIMIT"]
