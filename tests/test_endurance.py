@@ -257,8 +257,12 @@ def test_mean_stress_diagram_draws_the_criterion_and_the_point():
     """The figure's data: the criterion line is criterion_amplitude, the load line ends on it at
     n_f (σm, σa), the working point is (σm, σa), axes carry units."""
     se, sut, sy, sa, sm = 150.0, 510.0, 355.0, 90.0, 90.0
-    ax = plot_mean_stress_diagram(sa, sm, se, sut, sy, "gerber")
+    ax = plot_mean_stress_diagram(sa, sm, se, sut, sy, "gerber", safety_factor=1.5)
     lines = {ln.get_label(): ln for ln in ax.get_lines()}
+    x, y = lines["gerber / 1.5 (required n_f)"].get_data()
+    for xi, yi in zip(x[::40], y[::40]):                # on the line of n_f = 1.5 where the amplitude is > 0
+        if yi > 0 and xi > 0:
+            assert fatigue_safety_factor(yi, xi, se, sut, sy, "gerber") == pytest.approx(1.5, rel=1e-9)
     crit = lines["gerber (n = 1)"]
     x, y = crit.get_data()
     np.testing.assert_allclose(y, criterion_amplitude(x, se, sut, sy, "gerber"))

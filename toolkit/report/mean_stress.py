@@ -13,11 +13,14 @@ __all__ = ["plot_mean_stress_diagram"]
 
 
 def plot_mean_stress_diagram(amplitude, mean_stress, endurance, tensile_strength, yield_strength=None,
-                             criterion="goodman", ax=None, unit="MPa", label="working point"):
+                             criterion="goodman", safety_factor=1.0, ax=None, unit="MPa",
+                             label="working point"):
     """Draw σa against σm: the criterion (n = 1, :func:`toolkit.assess.endurance.criterion_amplitude`;
     flat at Se for a compressive mean), Langer's yield line ``σa + |σm| = Sy`` when Sy is given, the
     load line from the origin through the working point out to the criterion, and the working point
-    (local stresses, Kf applied).  Returns the axes."""
+    (local stresses, Kf applied).  With ``safety_factor`` n > 1 the criterion scaled by 1/n about the
+    origin (the line of n_f = n; every criterion is homogeneous in the stresses) is drawn too.
+    Returns the axes."""
     import matplotlib.pyplot as plt
 
     if ax is None:
@@ -27,6 +30,10 @@ def plot_mean_stress_diagram(amplitude, mean_stress, endurance, tensile_strength
     left = min(0.0, 1.2 * sm, -(sy if sy is not None else 0.5 * sut) * 0.5)
     m = np.linspace(left, sut, 401)
     ax.plot(m, criterion_amplitude(m, se, sut, sy, criterion), "-", color="tab:blue", label=f"{criterion} (n = 1)")
+    n_req = float(safety_factor)
+    if n_req > 1.0:
+        ax.plot(m / n_req, criterion_amplitude(m, se, sut, sy, criterion) / n_req, "-.", color="tab:cyan",
+                label=f"{criterion} / {n_req:g} (required n_f)")
     if sy is not None:
         ml = np.linspace(-sy, sy, 3)
         ax.plot(ml, sy - np.abs(ml), "--", color="tab:red", label="first-cycle yield (Langer)")
