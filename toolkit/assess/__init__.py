@@ -2,11 +2,16 @@
 hot-spot stress and through-thickness linearisation, stress ranges from
 tensors (principal range, the IIW rule at weld toes, cycles of a history), the
 Zienkiewicz-Zhu error indicator, grid convergence (Richardson, Roache's GCI),
-static and fatigue checks with S-N curves, and the closed forms and handbook
+static and fatigue checks with S-N curves, the endurance limit and
+mean-stress criteria of non-welded parts, and the closed forms and handbook
 fits the workbooks compare against."""
 from toolkit.core.locate import Location, PointLocator      # in core; beside the paths that use it
 from toolkit.assess.checks import (CAUTION, CheckResult, SNCurve, Working, fatigue_check, load_sn_data,
                                    miner_damage, sn_curve, static_check, thickness_factor)
+from toolkit.assess.endurance import (EnduranceLimit, criterion_amplitude, endurance_check, endurance_limit,
+                                      endurance_limit_estimate, equivalent_diameter, fatigue_safety_factor,
+                                      first_cycle_yield_check, langer_safety_factor, load_factor,
+                                      reliability_factor, size_factor, surface_factor)
 from toolkit.assess.convergence import ConvergenceResult, grid_convergence, representative_size
 from toolkit.assess.hotspot import HOT_SPOT_RULES, hot_spot_concentration, hot_spot_stress, linearize
 from toolkit.assess.indicator import error_indicator
@@ -19,6 +24,9 @@ __all__ = ["CAUTION", "CheckResult", "SNCurve", "Working", "fatigue_check", "loa
            "static_check", "thickness_factor", "ConvergenceResult", "grid_convergence", "representative_size",
            "HOT_SPOT_RULES", "hot_spot_concentration", "hot_spot_stress", "linearize", "error_indicator",
            "PathResult", "arc", "edge_path", "line", "path_from_spec", "polyline", "raw_along", "sample",
-           "PointLocator", "Location"]
+           "PointLocator", "Location", "EnduranceLimit", "criterion_amplitude", "endurance_check", "endurance_limit",
+           "endurance_limit_estimate", "equivalent_diameter", "fatigue_safety_factor", "first_cycle_yield_check",
+           "langer_safety_factor", "load_factor", "reliability_factor", "size_factor", "surface_factor"]
+
 __all__ += ["tensor_range", "principal_range", "PrincipalRange", "iiw_range", "IIWRange", "cycle_tensor_ranges",
             "IIW_ANGLE_LIMIT"]

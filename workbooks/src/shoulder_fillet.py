@@ -14,7 +14,8 @@ verdict_placeholder()
 # (tension). The workbook solves the model with the toolkit's solver, smooths the stresses by global L2
 # projection, reads the stress along the fillet surface to find the peak and its location, compares the
 # stress concentration factor with the handbook fit, derives a fatigue notch factor from Peterson's
-# notch sensitivity, and checks static strength.
+# notch sensitivity, checks static strength, and checks fatigue for infinite life (endurance limit with
+# Marin factors and a mean-stress criterion).
 
 # %% tags=["remove-input"]
 %matplotlib inline
@@ -27,10 +28,12 @@ import toolkit as tk
 from toolkit import report
 from toolkit.report import plots
 from toolkit.assess.checks import free_edge_tangents, static_check
+from toolkit.assess.endurance import endurance_check, endurance_limit, equivalent_diameter, first_cycle_yield_check
 from toolkit.fem.models import shoulder_fillet
 from toolkit.assess.references import fatigue_notch_factor, fillet_kt, peterson_q, peterson_q_warnings
 from toolkit.fem.solver import solve
 from toolkit.core.stress import von_mises
+from toolkit.report.mean_stress import plot_mean_stress_diagram
 from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
 from toolkit.report.widgets import path_panel, plot_path_comparison
 from toolkit.workbook import Summary
@@ -46,6 +49,12 @@ yield_strength = 355.0       # MPa; range: 0 < x <= 2000
 tensile_strength = 510.0     # MPa, for the notch sensitivity; range: 0 < x <= 3000
 safety_factor = 1.5          # on yield; range: 1 <= x <= 10
 element_size = 0.0           # mm, element size along the fillet; 0: r/16; range: 0 <= x <= 100; rule: element_size <= fillet_radius
+stress_ratio = 0.0           # R = σmin/σmax of the nominal stress (nominal_stress is σmax); range: -1 <= x < 1
+surface_finish = "machined"  # one of: "ground", "machined", "hot-rolled", "as-forged"
+bar_thickness = 10.0         # mm, flat bar thickness out of plane (size factor in bending); range: 0 < x <= 5000
+reliability = 0.9            # of the endurance limit (reliability factor ke); range: 0.5 <= x <= 0.9999
+mean_stress_criterion = "goodman"  # one of: "goodman", "gerber", "asme-elliptic"
+fatigue_safety_factor = 1.5  # required fatigue factor of safety n_f; range: 1 <= x <= 10
 
 # %% [markdown]
 # ## Inputs
@@ -53,9 +62,13 @@ element_size = 0.0           # mm, element size along the fillet; 0: r/16; range
 # %%
 params = dict(shape=shape, large_width=large_width, small_width=small_width, fillet_radius=fillet_radius,
               load=load, nominal_stress=nominal_stress, yield_strength=yield_strength,
-              tensile_strength=tensile_strength, safety_factor=safety_factor, element_size=element_size)
+              tensile_strength=tensile_strength, safety_factor=safety_factor, element_size=element_size,
+              stress_ratio=stress_ratio, surface_finish=surface_finish, bar_thickness=bar_thickness,
+              reliability=reliability, mean_stress_criterion=mean_stress_criterion,
+              fatigue_safety_factor=fatigue_safety_factor)
 report.inputs_table(params, dict(large_width="mm", small_width="mm", fillet_radius="mm", nominal_stress="MPa",
-                                 yield_strength="MPa", tensile_strength="MPa", element_size="mm"))
+                                 yield_strength="MPa", tensile_strength="MPa", element_size="mm",
+                                 bar_thickness="mm"))
 
 # %% [markdown]
 # ## The model
@@ -211,10 +224,60 @@ check_table([static])
 static
 
 # %% [markdown]
+# ## Fatigue check (non-welded)
+# Stress-life check for infinite life (R. G. Budynas and J. K. Nisbett, Shigley's Mechanical Engineering
+# Design, 9th ed., chapter 6). The nominal stress in the small section cycles between `nominal_stress`
+# (σmax) and R σmax, so the nominal amplitude is σa,nom = σmax (1 − R)/2 and the mean σm,nom = σmax (1 + R)/2;
+# the local stresses at the fillet are Kf times these (Kf from above, on the mean as well). The endurance
+# limit is estimated from the tensile strength, S'e = 0.5 Sut (up to 1400 MPa), and corrected by the Marin
+# factors, Se = ka kb kc kd ke kf S'e: surface finish, size (tension: none; flat bar in bending: the
+# equivalent diameter 0.808 √(d t) of the rectangular section), load (axial 0.85, bending 1), temperature
+# and miscellaneous effects (1 here), reliability. The chosen mean-stress criterion gives the fatigue
+# factor of safety n_f along the load line (σm/σa fixed); a compressive mean is taken as zero (no benefit).
+# The first cycle is checked against yield on Langer's line, σa + |σm| ≤ Sy. Equation numbers and
+# coefficients are quoted from memory (see toolkit/assess/endurance.py).
+
+# %%
+sigma_a_nom = nominal_stress * (1 - stress_ratio) / 2
+sigma_m_nom = nominal_stress * (1 + stress_ratio) / 2
+fatigue_load = "axial" if load == "tension" else "bending"
+size_diameter = (equivalent_diameter("rectangle", height=small_width, width=bar_thickness)
+                 if fatigue_load == "bending" else None)
+se = endurance_limit(tensile_strength, surface_finish, fatigue_load, diameter=size_diameter, reliability=reliability)
+print(f"nominal amplitude {sigma_a_nom:.4g} MPa, mean {sigma_m_nom:.4g} MPa (R = {stress_ratio:g}); "
+      f"local (x Kf {kf:.3f}): {kf * sigma_a_nom:.4g} MPa, {kf * sigma_m_nom:.4g} MPa")
+if size_diameter is not None:
+    print(f"equivalent diameter de = 0.808 √({small_width:g} × {bar_thickness:g}) = {size_diameter:.4g} mm")
+report.Table(se.rows(), ["factor", "value", "what and source"], title="Endurance limit (Marin factors)")
+
+# %%
+fatigue = endurance_check(sigma_a_nom, sigma_m_nom, se, tensile_strength, yield_strength, mean_stress_criterion,
+                          notch_factor=kf, safety_factor=fatigue_safety_factor)
+first_yield = first_cycle_yield_check(sigma_a_nom, sigma_m_nom, yield_strength, notch_factor=kf)
+fig, ax = plt.subplots(figsize=(9, 4.5), constrained_layout=True)
+plot_mean_stress_diagram(kf * sigma_a_nom, kf * sigma_m_nom, se.value, tensile_strength, yield_strength,
+                         mean_stress_criterion, safety_factor=fatigue_safety_factor, ax=ax, label="fillet (local)")
+plt.show()
+check_table([static, fatigue, first_yield])
+
+# %%
+fatigue
+
+# %%
+first_yield
+
+# %% [markdown]
+# Welded joints follow a separate route (the weld-toe workbook: hot-spot stress ranges against the IIW
+# S-N curves). The IIW recommendations apply no mean-stress correction to as-welded joints, f(R) = 1,
+# because the residual stresses of welding are taken as high tensile; the mean-stress criteria above are for
+# non-welded parts only.
+
+# %% [markdown]
 # ## Cautions and method references
 # - This calculation supports, and does not replace, the judgment of a qualified engineer and the
-#   governing local codes. It is linear elastic; local yielding at the fillet, surface finish, size and
-#   environment effects on fatigue are not included, and Kf from Peterson's q is an estimate for steels.
+#   governing local codes. It is linear elastic; local yielding at the fillet and environment effects on
+#   fatigue are not included, Kf from Peterson's q is an estimate for steels, and the fatigue check is for
+#   infinite life under constant amplitude with estimated (not measured) material fatigue strength.
 # - Handbook fits: W. D. Pilkey and D. F. Pilkey, Peterson's Stress Concentration Factors, 3rd ed.,
 #   Wiley 2008 (coefficients in toolkit/references.py, checked against reproductions of the charts'
 #   formulas; see data/SOURCES.md). The flat-bar model agrees within 4 % with the values tabulated in J. Carvill,
@@ -225,6 +288,9 @@ static
 # - Notch sensitivity: R. E. Peterson (1959), q = 1/(1 + a/r) with a = 0.0254 (2070/Su)^1.8 mm for steels,
 #   stated for Su ≥ 550 MPa (Shigley's Mechanical Engineering Design fits the same chart in Neuber's
 #   form instead).
+# - Endurance limit, Marin factors, mean-stress criteria (Goodman, Gerber, ASME elliptic) and Langer's
+#   first-cycle yield line: R. G. Budynas and J. K. Nisbett, Shigley's Mechanical Engineering Design, 9th ed.,
+#   McGraw-Hill 2011, §6-7 to §6-12 (equation numbers and table values from memory).
 # - Global L2 projection: E. Hinton and J. S. Campbell, Int. J. Numer. Meth. Eng. 8 (1974) 461–480.
 # - Patch recovery and error indicator: O. C. Zienkiewicz and J. Z. Zhu, Int. J. Numer. Meth. Eng. 33
 #   (1992).
@@ -241,7 +307,12 @@ summary.value("kf", kf, "1", note="fatigue notch factor, Peterson q", digits=4, 
 summary.value("peak_von_mises", peak_vm, "MPa", digits=4)
 summary.value("gci_fine", conv.gci_fine, "1", note="Roache's GCI, finest mesh", digits=4)
 summary.value("error_eta", ind.eta, "1", note="Zienkiewicz-Zhu global relative error")
+summary.value("endurance_limit", se.value, "MPa", note="Se = ka kb kc kd ke kf S'e (Shigley)", digits=4)
+summary.value("fatigue_safety_factor_nf", fatigue.inputs["fatigue_safety_factor"], "1",
+              note=f"{fatigue.inputs['criterion']} criterion, local stresses Kf x nominal", digits=4, key=True)
 summary.check(static, digits=4)
+summary.check(fatigue, digits=4)
+summary.check(first_yield, digits=4)
 summary.save()
 
 # %% tags=["remove-input"]
