@@ -11,9 +11,10 @@ from toolkit.assess.hotspot import HOT_SPOT_RULES, hot_spot_concentration, hot_s
 from toolkit.assess.indicator import error_indicator
 from toolkit.assess.paths import arc, edge_path, line, path_from_spec, polyline
 from toolkit.assess.sampling import PathResult, raw_along, sample
+from toolkit.assess.sections import SectionResultants, section_resultants
 
 __all__ = ["CAUTION", "CheckResult", "SNCurve", "Working", "fatigue_check", "load_sn_data", "miner_damage", "sn_curve",
            "static_check", "thickness_factor", "ConvergenceResult", "grid_convergence", "representative_size",
            "HOT_SPOT_RULES", "hot_spot_concentration", "hot_spot_stress", "linearize", "error_indicator",
            "PathResult", "arc", "edge_path", "line", "path_from_spec", "polyline", "raw_along", "sample",
-           "PointLocator", "Location"]
+           "PointLocator", "Location", "SectionResultants", "section_resultants"]
