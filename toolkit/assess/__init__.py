@@ -1,5 +1,6 @@
 """Layer 4: what the design rules ask for.  Paths and sampling along them,
-hot-spot stress and through-thickness linearisation, the Zienkiewicz-Zhu error
+hot-spot stress and through-thickness linearisation, membrane and bending at a
+section from nodal forces, the Zienkiewicz-Zhu error
 indicator, grid convergence (Richardson, Roache's GCI), static and fatigue
 checks with S-N curves, and the closed forms and handbook fits the workbooks
 compare against."""
