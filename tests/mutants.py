@@ -253,6 +253,27 @@ MUTANTS: list[Mutant] = [
       "POINT_TOL = 1e-3",
       "imported integration points matched with a tolerance ten times too tight (exported rounding refused)",
       "tests/test_io.py"),
+    # -- section resultants by nodal forces
+    M("section-bending-4", "toolkit/assess/sections.py",
+      "bnd = 6.0 * M / (t * t * width)",
+      "bnd = 4.0 * M / (t * t * width)",
+      "section bending 4 M / t^2 instead of 6 M / t^2",
+      "tests/test_sections.py"),
+    M("section-moment-about-start", "toolkit/assess/sections.py",
+      "M = float(Fn @ (0.5 * t - s))",
+      "M = float(Fn @ (0.0 - s))",
+      "section moment taken about the first surface instead of the mid-point",
+      "tests/test_sections.py"),
+    M("section-both-sides", "toolkit/assess/sections.py",
+      "sel = np.flatnonzero((np.sign(centroid_off) == sign) & on_sec[b.cells].any(axis=1))",
+      "sel = np.flatnonzero(on_sec[b.cells].any(axis=1))",
+      "nodal forces summed over the cells on both sides of the section",
+      "tests/test_sections.py"),
+    M("section-no-gauss-weights", "toolkit/assess/sections.py",
+      'fe = np.einsum("cqkj,cqij,cq->cki", g.dNdx_cqki[sel], sig, g.dV_cq[sel], optimize=True)',
+      'fe = np.einsum("cqkj,cqij,cq->cki", g.dNdx_cqki[sel], sig, g.detJ_cq[sel], optimize=True)',
+      "nodal forces integrated without the Gauss weights (det J only)",
+      "tests/test_sections.py"),
 ]
 
 

@@ -22,9 +22,10 @@ from toolkit.assess.sampling import sample, raw_along
 from toolkit.assess.paths import line, polyline, arc, edge_path
 from toolkit.recovery.spr import recover_spr
 from toolkit.assess.indicator import error_indicator
+from toolkit.assess.sections import section_resultants
 
 __all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "edge_path", "recover_spr",
-            "error_indicator"]
+            "error_indicator", "section_resultants"]
 
 from toolkit.io import read_results, write_results, write_vtu
 

@@ -1,6 +1,7 @@
 """Layer 4: what the design rules ask for.  Paths and sampling along them,
 hot-spot stress and through-thickness linearisation, stress ranges from
-tensors (principal range, the IIW rule at weld toes, cycles of a history), the
+tensors (principal range, the IIW rule at weld toes, cycles of a history), membrane and
+bending at a section from nodal forces, the
 Zienkiewicz-Zhu error indicator, grid convergence (Richardson, Roache's GCI),
 static and fatigue checks with S-N curves, the endurance limit and
 mean-stress criteria of non-welded parts, and the closed forms and handbook
@@ -19,6 +20,7 @@ from toolkit.assess.paths import arc, edge_path, line, path_from_spec, polyline
 from toolkit.assess.ranges import (IIW_ANGLE_LIMIT, IIWRange, PrincipalRange, cycle_tensor_ranges, iiw_range,
                                    principal_range, tensor_range)
 from toolkit.assess.sampling import PathResult, raw_along, sample
+from toolkit.assess.sections import SectionResultants, section_resultants
 
 __all__ = ["CAUTION", "CheckResult", "SNCurve", "Working", "fatigue_check", "load_sn_data", "miner_damage", "sn_curve",
            "static_check", "thickness_factor", "ConvergenceResult", "grid_convergence", "representative_size",
@@ -30,3 +32,4 @@ __all__ = ["CAUTION", "CheckResult", "SNCurve", "Working", "fatigue_check", "loa
 
 __all__ += ["tensor_range", "principal_range", "PrincipalRange", "iiw_range", "IIWRange", "cycle_tensor_ranges",
             "IIW_ANGLE_LIMIT"]
+__all__ += ["SectionResultants", "section_resultants"]
