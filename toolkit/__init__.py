@@ -26,6 +26,12 @@ from toolkit.assess.indicator import error_indicator
 __all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "edge_path", "recover_spr",
             "error_indicator"]
 
+from toolkit.assess.rainflow import rainflow, Cycles  # noqa: E402
+from toolkit.assess.damage import cycle_damage, equivalent_range  # noqa: E402
+from toolkit.assess.multiaxial import multiaxial_check  # noqa: E402
+
+__all__ += ["rainflow", "Cycles", "cycle_damage", "equivalent_range", "multiaxial_check"]
+
 from toolkit.io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
