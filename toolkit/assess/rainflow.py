@@ -236,7 +236,8 @@ def rainflow(series) -> Cycles:
     range is ``|x_j - x_i|``, its mean ``(x_i + x_j)/2``.
 
     The count is one O(n) pass in plain Python over the turning points
-    (sequential by nature); the rest is vectorised.
+    (sequential by nature); the rest is vectorised.  A random history of
+    1e6 points counts in about 1 s (``benchmarks/rainflow.py``).
 
     Parameters
     ----------
