@@ -27,6 +27,12 @@ from toolkit.assess.sections import section_resultants
 __all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "edge_path", "recover_spr",
             "error_indicator", "section_resultants"]
 
+from toolkit.assess.counting import rainflow, Cycles  # noqa: E402
+from toolkit.assess.damage import cycle_damage, equivalent_range  # noqa: E402
+from toolkit.assess.multiaxial import multiaxial_check  # noqa: E402
+
+__all__ += ["rainflow", "Cycles", "cycle_damage", "equivalent_range", "multiaxial_check"]
+
 from toolkit.io import read_results, write_results, write_vtu
 
 __all__ += ["read_results", "write_results", "write_vtu"]
