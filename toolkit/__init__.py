@@ -28,9 +28,9 @@ from toolkit.assess.indicator import error_indicator
 __all__ += ["PointLocator", "sample", "raw_along", "line", "polyline", "arc", "edge_path", "recover_spr",
             "error_indicator"]
 
-from toolkit.io import read_results, write_results, write_vtu
+from toolkit.io import read_results, read_cases, write_results, write_vtu
 
-__all__ += ["read_results", "write_results", "write_vtu"]
+__all__ += ["read_results", "read_cases", "write_results", "write_vtu"]
 
 from toolkit.fem import Material, Traction, Pressure, PointLoad, Fixed, Roller, Displacement  # noqa: E402
 

@@ -8,8 +8,9 @@ matched by position), ``npz`` (the ``.npz`` form), ``neutral`` (the result
 folder), ``export`` (nodal CSV and VTU)."""
 from toolkit.io.about import FORMAT
 from toolkit.io.export import VTK_CELL_TYPES, write_nodal_csv, write_vtu
-from toolkit.io.neutral import read_about, read_mesh, read_results, write_results
+from toolkit.io.neutral import read_about, read_cases, read_mesh, read_results, write_results
 from toolkit.io.points import POINT_TOL
 
-__all__ = ["FORMAT", "POINT_TOL", "VTK_CELL_TYPES", "read_results", "write_results", "read_mesh", "read_about",
+__all__ = ["FORMAT", "POINT_TOL", "VTK_CELL_TYPES", "read_results", "read_cases", "write_results", "read_mesh",
+           "read_about",
            "write_nodal_csv", "write_vtu"]
