@@ -383,10 +383,13 @@ def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
             raise InputError(f"{afile}: lists load cases {about['cases']}, but {gfile.name} has no 'case' column")
         return _case_field(g, mesh, info, about, tol, afile, row_blk, row_cell, None, about.get("name", "field"))
     names, index = _case_index(g, about, afile)
+    by_case = np.argsort(index, kind="stable")              # each case's rows, in file order
+    bounds = np.searchsorted(index[by_case], np.arange(len(names) + 1))
     fields = {}
     for k, name in enumerate(names):
+        rows = by_case[bounds[k]:bounds[k + 1]]
         try:
-            fields[name] = _case_field(g, mesh, info, about, tol, afile, row_blk, row_cell, index == k, name)
+            fields[name] = _case_field(g, mesh, info, about, tol, afile, row_blk, row_cell, rows, name)
         except InputError as e:
             raise InputError(f"{e} (load case {name!r})") from None
     try:
@@ -396,11 +399,11 @@ def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
 
 
 def _case_field(g: _GaussRows, mesh, info, about, tol, afile, row_blk, row_cell, select, name):
-    """The field of the rows ``select`` (all rows when None) of ``gauss.csv``."""
+    """The field of the data rows ``select`` (increasing row numbers; all rows
+    when None) of ``gauss.csv``."""
     values, points = {}, {}
     for bi, b in enumerate(mesh.blocks):
-        mine = row_blk == bi
-        rows = np.flatnonzero(mine if select is None else mine & select)
+        rows = np.flatnonzero(row_blk == bi) if select is None else select[row_blk[select] == bi]
         values[b.name], points[b.name] = _block_values(g, mesh, b, rows, row_cell[rows], info, about, tol, afile)
     try:
         return GaussField(mesh, values, g.comps, points=points, name=name)
