@@ -106,27 +106,27 @@ def main(argv=None):
     counts = [int(c) for c in args.cases.split(",")]
     print(f"# {side * side} quad4 cells ({side} x {side}), 3 components per case, "
           f"peak memory by {args.memory}", flush=True)
+    head = (f"| cases | together s/case | one by one s/case | time ratio | together peak MiB | "
+            f"one by one peak MiB | memory ratio | cases per solve | CG iterations |")
+    print(head)
+    print("|" + "---|" * 9, flush=True)
     rows = []
-    for n in counts:
+    for n in counts:                        # each row printed as soon as it is measured
         res = {}
         for mode in ("together", "one_by_one"):
             print(f"  {n} cases, {mode} ...", file=sys.stderr, flush=True)
             res[mode] = run_worker({"side": side, "cases": n, "mode": mode, "seed": args.seed,
                                     "sample": args.sample, "memory": args.memory}, args.timeout)
         rows.append((n, res))
-    head = (f"| cases | together s/case | one by one s/case | time ratio | together peak MiB | "
-            f"one by one peak MiB | memory ratio | cases per solve | CG iterations |")
-    print(head)
-    print("|" + "---|" * 9)
-    for n, res in rows:
         a, b = res["together"], res["one_by_one"]
         if "error" in a or "error" in b:
-            print(f"| {n} | {a.get('error', '')} | {b.get('error', '')} |")
+            print(f"| {n} | {a.get('error', '')} | {b.get('error', '')} |", flush=True)
             continue
         sampled = "" if b["projected"] == n else f" (sampled {b['projected']})"
         print(f"| {n} | {a['seconds'] / n:.3f} | {b['seconds'] / n:.3f}{sampled} | "
               f"{b['seconds'] / a['seconds']:.2f} | {a['peak_mib']:.0f} | {b['peak_mib']:.0f} | "
-              f"{a['peak_mib'] / max(b['peak_mib'], 1e-9):.2f} | {a['cases_in_solve']} | {a['iterations']} |")
+              f"{a['peak_mib'] / max(b['peak_mib'], 1e-9):.2f} | {a['cases_in_solve']} | {a['iterations']} |",
+              flush=True)
     first = rows[0][1]["together"]
     if "ndof" in first:
         print(f"\n{first['ndof']} unknowns; projector setup {first['setup']:.2f} s (not timed above). "
