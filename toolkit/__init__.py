@@ -3,7 +3,8 @@ design quantities, checks and a checkable report."""
 from toolkit.core.elements import ELEMENTS, ElementType, QuadratureRule, get_element
 from toolkit.core.mesh import Mesh
 from toolkit.core.fields import GaussField, NodalField
-from toolkit.recovery import L2Projector, project_l2, average_nodal, recover, METHODS as RECOVERY_METHODS
+from toolkit.core.cases import LoadCases, combine_nodal
+from toolkit.recovery import L2Projector, project_l2, average_nodal, recover, recover_cases, METHODS as RECOVERY_METHODS
 from toolkit.core.stress import von_mises, principal, tresca, hydrostatic, max_abs_principal, rotate_2d, rotate
 from toolkit.assess.hotspot import hot_spot_stress, linearize, hot_spot_concentration
 from toolkit.assess.checks import SNCurve, sn_curve, thickness_factor, miner_damage, fatigue_check, static_check, CheckResult
@@ -12,7 +13,8 @@ from toolkit.assess.convergence import grid_convergence
 __version__ = "0.1.0"
 
 __all__ = ["ELEMENTS", "ElementType", "QuadratureRule", "get_element", "Mesh", "GaussField", "NodalField",
-           "L2Projector", "project_l2", "average_nodal", "recover", "RECOVERY_METHODS", "__version__",
+           "LoadCases", "combine_nodal",
+           "L2Projector", "project_l2", "average_nodal", "recover", "recover_cases", "RECOVERY_METHODS", "__version__",
            "von_mises", "principal", "tresca", "hydrostatic", "max_abs_principal", "rotate_2d", "rotate",
            "hot_spot_stress", "linearize", "hot_spot_concentration", "SNCurve", "sn_curve", "thickness_factor",
            "miner_damage", "fatigue_check", "static_check", "CheckResult", "grid_convergence"]
@@ -33,9 +35,9 @@ from toolkit.assess.multiaxial import multiaxial_check  # noqa: E402
 
 __all__ += ["rainflow", "Cycles", "cycle_damage", "equivalent_range", "multiaxial_check"]
 
-from toolkit.io import read_results, write_results, write_vtu
+from toolkit.io import read_results, read_cases, write_results, write_vtu
 
-__all__ += ["read_results", "write_results", "write_vtu"]
+__all__ += ["read_results", "read_cases", "write_results", "write_vtu"]
 
 from toolkit.assess.ranges import tensor_range, principal_range, iiw_range, cycle_tensor_ranges  # noqa: E402
 

@@ -10,8 +10,8 @@ factors of named load cases over time)."""
 from toolkit.io.about import FORMAT
 from toolkit.io.export import VTK_CELL_TYPES, write_nodal_csv, write_vtu
 from toolkit.io.history import LoadHistory, read_load_history
-from toolkit.io.neutral import read_about, read_mesh, read_results, write_results
+from toolkit.io.neutral import read_about, read_cases, read_mesh, read_results, write_results
 from toolkit.io.points import POINT_TOL
 
-__all__ = ["FORMAT", "POINT_TOL", "VTK_CELL_TYPES", "read_results", "write_results", "read_mesh", "read_about",
-           "write_nodal_csv", "write_vtu", "LoadHistory", "read_load_history"]
+__all__ = ["FORMAT", "POINT_TOL", "VTK_CELL_TYPES", "read_results", "read_cases", "write_results", "read_mesh",
+           "read_about", "write_nodal_csv", "write_vtu", "LoadHistory", "read_load_history"]

@@ -11,7 +11,7 @@ __all__ = ["FORMAT", "ABOUT_KEYS", "MAX_RULE_POINTS", "check_about", "declared_p
 #: Format label written into ``about.json`` and ``.npz`` files.
 FORMAT = "stresspath-results/1"
 
-ABOUT_KEYS = ("format", "points", "units", "description", "name")
+ABOUT_KEYS = ("format", "points", "units", "description", "name", "cases")
 
 #: The largest point count a result set may declare per element: a 10 x 10 x 10 Gauss rule on a hex
 #: (common practice uses at most 3 or 4 per direction).  Checked before any rule is built, since a
@@ -21,7 +21,7 @@ MAX_RULE_POINTS = 1000
 
 def check_about(about: dict, where: str) -> dict:
     """``about`` itself once checked: only the keys of :data:`ABOUT_KEYS`, our
-    format label, ``points`` a rule name, a point count (at most
+    format label, ``cases`` a list of distinct load case names, ``points`` a rule name, a point count (at most
     :data:`MAX_RULE_POINTS`) or an object of those
     by element type, ``units`` a string or an object of strings; ``where``
     names the source in the messages."""
@@ -56,6 +56,18 @@ def check_about(about: dict, where: str) -> dict:
     for k in ("description", "name"):
         if k in about and not isinstance(about[k], str):
             raise InputError(f"{where}: {k!r} must be a string")
+    if "cases" in about:
+        cases = about["cases"]
+        if not isinstance(cases, list) or not cases or not all(
+                isinstance(c, str) and c and c == c.strip() for c in cases):
+            raise InputError(f"{where}: 'cases' must be a non-empty list of load case names (non-empty strings "
+                             "without surrounding spaces), in order")
+        seen = set()
+        for c in cases:
+            if c.casefold() in seen:
+                raise InputError(f"{where}: 'cases' names load case {c!r} twice (names differing only in "
+                                 "letter case count as the same)")
+            seen.add(c.casefold())
     return about
 
 

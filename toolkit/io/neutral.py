@@ -6,8 +6,8 @@ The folder holds three CSV files and an optional JSON file::
 
     nodes.csv      node,x,y[,z]
     elements.csv   element,type,region,n1,...,nK
-    gauss.csv      element,point[,x,y[,z]],<components...>
-    about.json     {"points": ..., "units": ..., "description": ..., "name": ...}
+    gauss.csv      [case,]element,point[,x,y[,z]],<components...>
+    about.json     {"points": ..., "units": ..., "description": ..., "name": ..., "cases": [...]}
 
 (the full description is in the README).  Ids are arbitrary integers, never
 positions.  Node order within an element is the one of
@@ -18,6 +18,13 @@ point numbers does not matter.  Every problem with the input raises a
 :class:`ValueError` naming the file, the 1-based data row or the element
 id, and what is wrong; floats are written losslessly
 (:mod:`toolkit.io.table`).
+
+Several load cases (unit loads or time steps) share the folder: ``gauss.csv``
+then starts with a ``case`` column naming each row's case, and
+``about.json`` may list the names in order (``"cases"``).  Each case is
+checked on its own (every element, every point) and all must sit at the same
+points.  :func:`read_results` returns one field, as for a folder without the
+column; :func:`read_cases` returns the cases as :class:`LoadCases`.
 """
 from __future__ import annotations
 
@@ -29,6 +36,7 @@ from pathlib import Path
 import numpy as np
 
 from toolkit.errors import InputError
+from toolkit.core.cases import LoadCases
 from toolkit.core.elements import ELEMENTS, QuadratureRule, get_element
 from toolkit.core.fields import GaussField
 from toolkit.core.mesh import Mesh
@@ -39,7 +47,8 @@ from toolkit.io.points import POINT_TOL, candidate_rule, match_points, rule_spec
 from toolkit.io.table import EMPTY, Table, first_duplicate, first_true, float_cells, int_cells, read_csv, write_csv
 
 __all__ = ["NODES_FILE", "ELEMENTS_FILE", "GAUSS_FILE", "ABOUT_FILE", "RESERVED", "MAX_POINTS",
-           "read_results", "write_results", "read_mesh", "read_about", "check_component_names", "result_files"]
+           "read_results", "read_cases", "write_results", "read_mesh", "read_about", "check_component_names",
+           "check_case_names", "result_files"]
 
 #: Most integration points one element may carry in an imported file.
 MAX_POINTS = 512
@@ -50,7 +59,7 @@ GAUSS_FILE = "gauss.csv"
 ABOUT_FILE = "about.json"
 
 #: Fixed column names of ``gauss.csv``; no component may take one of them.
-RESERVED = ("element", "point", "x", "y", "z")
+RESERVED = ("case", "element", "point", "x", "y", "z")
 
 
 # ===========================================================================
@@ -104,11 +113,11 @@ def _gauss_schema(path, names):
     for need in ("element", "point"):
         if need not in low:
             raise InputError(f"{path}: missing column {need!r}; the header must be "
-                             "element,point[,x,y[,z]],<components>")
+                             "[case,]element,point[,x,y[,z]],<components>")
     comps = [n for n, l in zip(names, low) if l not in RESERVED]
     if not comps:
         raise InputError(f"{path}: no component columns (e.g. sxx,syy,sxy) after element,point[,x,y[,z]]")
-    return ["i" if l in ("element", "point") else "f" for l in low]
+    return ["i" if l in ("element", "point") else "c" if l == "case" else "f" for l in low]
 
 
 
@@ -118,7 +127,7 @@ def _gauss_schema(path, names):
 def read_about(path) -> dict:
     """The ``about.json`` of a result folder (``{}`` if there is none), or the
     about record stored in an ``.npz`` file, checked: only the keys
-    ``format``, ``points``, ``units``, ``description`` and ``name``."""
+    ``format``, ``points``, ``units``, ``description``, ``name`` and ``cases``."""
     path = Path(path)
     if path.suffix.lower() == ".npz":
         return read_npz_about(path)
@@ -182,12 +191,44 @@ def read_results(path, point_tol: float = POINT_TOL):
     mesh : Mesh
     field : GaussField
 
+    A folder (or file) with several load cases is refused with a message
+    pointing to :func:`read_cases`; one with a ``case`` column naming a
+    single case gives that case's field (named after it).
+
     When ``gauss.csv`` gives coordinates, each point is mapped to natural
     coordinates (inverse isoparametric map) and matched by position: to a
     Gauss rule of the element type if the points form one (the field then
     uses that rule exactly), otherwise to the point set of the first element
     of the type.  Values are reordered by that match, never by row order.
     """
+    mesh, cases = _read_any(path, point_tol)
+    if not isinstance(cases, LoadCases):
+        return mesh, cases
+    if len(cases) > 1:
+        raise InputError(f"{path}: holds {len(cases)} load cases ({', '.join(map(repr, cases.names))}); "
+                         "read it with read_cases, which returns them all")
+    return mesh, cases[cases.names[0]]
+
+
+def read_cases(path, point_tol: float = POINT_TOL):
+    """Read a neutral result folder or ``.npz`` file with one or more load cases.
+
+    Returns ``(mesh, LoadCases)``: the cases in the order ``about.json``
+    lists them (``"cases"``), else in the order of their first row in
+    ``gauss.csv``.  A folder without a ``case`` column holds one case, named
+    after the field (``about.json`` ``"name"``, default ``"field"``).  See
+    :func:`read_results` for ``point_tol`` and the point matching, which is
+    done for every case on its own.
+    """
+    mesh, cases = _read_any(path, point_tol)
+    if not isinstance(cases, LoadCases):
+        cases = LoadCases({cases.name: cases}, name=cases.name)
+    return mesh, cases
+
+
+def _read_any(path, point_tol):
+    """``(mesh, GaussField)`` of a single-case source, ``(mesh, LoadCases)``
+    of one with a case column (or ``cases`` array)."""
     if not (0 < point_tol < 0.5):
         raise InputError(f"point_tol must lie in (0, 0.5), got {point_tol}")
     path = _results_path(path)
@@ -195,8 +236,7 @@ def read_results(path, point_tol: float = POINT_TOL):
         return read_npz(path)
     mesh, info = _read_mesh_folder(path)
     about = read_about(path)
-    field = _read_gauss(path / GAUSS_FILE, mesh, info, about, point_tol, path / ABOUT_FILE)
-    return mesh, field
+    return mesh, _read_gauss(path / GAUSS_FILE, mesh, info, about, point_tol, path / ABOUT_FILE)
 
 
 # ---------------------------------------------------------------------------
@@ -328,22 +368,81 @@ class _GaussRows:
     point: np.ndarray
     vals: np.ndarray
     X: np.ndarray | None
+    case: np.ndarray | None = None
 
 
 def _read_gauss(gfile: Path, mesh: Mesh, info, about, tol, afile):
-    """The field of ``gauss.csv``: read and check the table, find the element
-    of every row, then per block group the rows by element, find the block's
-    point set and order the values by it, and build the field."""
+    """The field of ``gauss.csv`` (or its load cases, when it has a ``case``
+    column): read and check the table, find the element of every row, then
+    per case and block group the rows by element, find the block's point set
+    and order the values by it, and build the field."""
     g = _read_gauss_table(gfile, mesh.dim)
     row_blk, row_cell = _element_of_rows(g, mesh, info)
-    values, points = {}, {}
-    for bi, b in enumerate(mesh.blocks):
-        rows = np.flatnonzero(row_blk == bi)
-        values[b.name], points[b.name] = _block_values(g, mesh, b, rows, row_cell[rows], info, about, tol, afile)
+    if g.case is None:
+        if "cases" in about:
+            raise InputError(f"{afile}: lists load cases {about['cases']}, but {gfile.name} has no 'case' column")
+        return _case_field(g, mesh, info, about, tol, afile, row_blk, row_cell, None, about.get("name", "field"))
+    names, index = _case_index(g, about, afile)
+    by_case = np.argsort(index, kind="stable")              # each case's rows, in file order
+    bounds = np.searchsorted(index[by_case], np.arange(len(names) + 1))
+    fields = {}
+    for k, name in enumerate(names):
+        rows = by_case[bounds[k]:bounds[k + 1]]
+        try:
+            fields[name] = _case_field(g, mesh, info, about, tol, afile, row_blk, row_cell, rows, name)
+        except InputError as e:
+            raise InputError(f"{e} (load case {name!r})") from None
     try:
-        return GaussField(mesh, values, g.comps, points=points, name=about.get("name", "field"))
+        return LoadCases(fields, name=about.get("name", "cases"))
     except ValueError as e:
         raise InputError(f"{gfile}: {e}") from None
+
+
+def _case_field(g: _GaussRows, mesh, info, about, tol, afile, row_blk, row_cell, select, name):
+    """The field of the data rows ``select`` (increasing row numbers; all rows
+    when None) of ``gauss.csv``."""
+    values, points = {}, {}
+    for bi, b in enumerate(mesh.blocks):
+        rows = np.flatnonzero(row_blk == bi) if select is None else select[row_blk[select] == bi]
+        values[b.name], points[b.name] = _block_values(g, mesh, b, rows, row_cell[rows], info, about, tol, afile)
+    try:
+        return GaussField(mesh, values, g.comps, points=points, name=name)
+    except ValueError as e:
+        raise InputError(f"{g.table.path}: {e}") from None
+
+
+def _case_index(g: _GaussRows, about, afile):
+    """The load case names (``about.json``'s order, else first appearance)
+    and each row's index into them; every row names a case, no two names
+    differ only in letter case, and every listed case has rows."""
+    gt = g.table
+    empty = first_true(g.case == "")
+    if empty is not None:
+        raise InputError(f"{gt.where(empty)}, column 'case': empty cell; every row must name its load case")
+    found, first, inv = np.unique(g.case, return_index=True, return_inverse=True)
+    folded = {}
+    for name, r in sorted(zip(found.tolist(), first.tolist()), key=lambda p: p[1]):
+        other = folded.setdefault(name.casefold(), (name, r))
+        if other[0] != name:
+            raise InputError(f"{gt.where(r)}: load case {name!r} and {other[0]!r} (row {other[1] + 1}) differ only "
+                             "in letter case; give each case one spelling")
+    listed = about.get("cases")
+    if listed is None:
+        order = np.argsort(first, kind="stable")
+        names = [str(found[i]) for i in order]
+        rank = np.empty(len(found), dtype=np.int64)
+        rank[order] = np.arange(len(found))
+        return names, rank[inv]
+    pos = {n: i for i, n in enumerate(listed)}
+    for name, r in zip(found.tolist(), first.tolist()):
+        if name not in pos:
+            raise InputError(f"{gt.where(r)}: load case {name!r} is not among the cases {afile} lists "
+                             f"({', '.join(map(repr, listed))})")
+    have = set(found.tolist())
+    missing = [n for n in listed if n not in have]
+    if missing:
+        raise InputError(f"{afile}: lists load case {missing[0]!r}, but {gt.path.name} has no rows for it")
+    return list(listed), np.array([pos[n] for n in found.tolist()], dtype=np.int64)[inv]
 
 
 def _read_gauss_table(gfile: Path, dim: int) -> _GaussRows:
@@ -375,7 +474,8 @@ def _read_gauss_table(gfile: Path, dim: int) -> _GaussRows:
     if bad is not None:
         raise InputError(f"{gt.where(bad)}: point number {int(point[bad])} of element {int(elem[bad])}; "
                          "point numbers start at 1")
-    return _GaussRows(gt, comps, elem, point, vals, X)
+    case = np.char.strip(gt.col("case")) if "case" in gt else None
+    return _GaussRows(gt, comps, elem, point, vals, X, case)
 
 
 def _element_of_rows(g: _GaussRows, mesh: Mesh, info):
@@ -516,6 +616,20 @@ def check_component_names(components):
                              f"{', '.join(RESERVED)}")
 
 
+def check_case_names(names):
+    """Every load case name must fit a CSV cell: non-empty, shorter than 64
+    characters, without commas, quotes, line breaks or surrounding spaces,
+    and no two may differ only in letter case."""
+    seen = {}
+    for c in names:
+        if not c or c != c.strip() or len(c) >= 64 or any(ch in c for ch in ',"\n\r'):
+            raise InputError(f"load case name {c!r} cannot be written to a CSV cell: names must be non-empty, "
+                             "shorter than 64 characters, without commas, quotes, line breaks or surrounding spaces")
+        if c.casefold() in seen:
+            raise InputError(f"load case names {seen[c.casefold()]!r} and {c!r} differ only in letter case")
+        seen[c.casefold()] = c
+
+
 def _points_about(mesh, field):
     """``points`` entry of about.json for the field, or None when some block
     sits at points that form no stored rule."""
@@ -534,7 +648,8 @@ def _points_about(mesh, field):
     return specs
 
 
-def write_results(path, mesh: Mesh, field: GaussField, coordinates: bool = True, about: dict | None = None):
+def write_results(path, mesh: Mesh, field: GaussField | LoadCases, coordinates: bool = True,
+                  about: dict | None = None):
     """Write a result folder (``nodes.csv``, ``elements.csv``, ``gauss.csv``,
     ``about.json``) or, when ``path`` ends in ``.npz``, one compressed
     ``.npz`` file.
@@ -542,7 +657,12 @@ def write_results(path, mesh: Mesh, field: GaussField, coordinates: bool = True,
     Parameters
     ----------
     path : folder (created if needed; the four files are replaced) or ``*.npz``.
-    mesh, field : the model; ``field.mesh`` must be ``mesh``.
+    mesh, field : the model; ``field.mesh`` must be ``mesh``.  ``field`` may
+        be :class:`LoadCases`: ``gauss.csv`` then starts with a ``case``
+        column (the cases one after the other, each in the row order of a
+        single field) and ``about.json`` lists the case names in order; the
+        ``.npz`` form stores each block's values as (cases, cells, points,
+        components).
     coordinates : write the physical coordinates of every integration point
         into ``gauss.csv`` (so a reader can match points by position).
         Without coordinates the points are numbered in the order of the rule
@@ -554,20 +674,29 @@ def write_results(path, mesh: Mesh, field: GaussField, coordinates: bool = True,
     the same double, so reading the folder back reproduces every number and id.
     """
     path = Path(path)
-    if not isinstance(mesh, Mesh) or not isinstance(field, GaussField):
-        raise InputError("write_results needs a Mesh and a GaussField")
+    if not isinstance(mesh, Mesh) or not isinstance(field, (GaussField, LoadCases)):
+        raise InputError("write_results needs a Mesh and a GaussField (or LoadCases)")
     if field.mesh is not mesh:
         raise InputError("the field belongs to another mesh than the one given")
+    cases = field if isinstance(field, LoadCases) else None
+    if cases is not None:
+        check_case_names(cases.names)
+        field = cases[cases.names[0]]
     meta = _about_record(mesh, field, about, coordinates)
+    if cases is not None:
+        meta.pop("name", None)
+        if cases.name != "cases":
+            meta["name"] = cases.name
+        meta["cases"] = list(cases.names)
     if path.suffix.lower() == ".npz":
-        write_npz(path, mesh, field, meta)
+        write_npz(path, mesh, cases if cases is not None else field, meta)
         return path
     if path.exists() and not path.is_dir():
         raise InputError(f"{path}: exists and is not a folder")
     check_component_names(field.components)
     _write_nodes(path / NODES_FILE, mesh)
     _write_elements(path / ELEMENTS_FILE, mesh)
-    _write_gauss(path / GAUSS_FILE, mesh, field, coordinates)
+    _write_gauss(path / GAUSS_FILE, mesh, cases if cases is not None else field, coordinates)
     atomic_write(path / ABOUT_FILE, lambda f: f.write(json.dumps(meta, indent=2, sort_keys=True) + "\n"))
     return path
 
@@ -576,7 +705,7 @@ def _about_record(mesh, field, about, coordinates):
     """The about record to write: the user's ``units`` / ``description``,
     the format label, the field's name and the points it sits at."""
     meta = dict(about or {})
-    for k in ("format", "points", "name"):
+    for k in ("format", "points", "name", "cases"):
         if k in meta:
             raise InputError(f"about: {k!r} is written from the model; give only 'units' and 'description'")
     check_about(meta, "about")
@@ -612,22 +741,31 @@ def _write_elements(efile: Path, mesh):
 
 
 def _write_gauss(gfile: Path, mesh, field, coordinates):
+    """``gauss.csv`` of a field, or of load cases (a leading ``case`` column,
+    the cases one after the other)."""
     dim = mesh.dim
-    header = ["element", "point"] + (list("xyz"[:dim]) if coordinates else []) + list(field.components)
+    cases = field if isinstance(field, LoadCases) else None
+    fields = list(cases.items()) if cases is not None else [(None, field)]
+    lead = ["case"] if cases is not None else []
+    header = lead + ["element", "point"] + (list("xyz"[:dim]) if coordinates else []) + list(fields[0][1].components)
     cols = [[] for _ in header]
-    xq = field.physical_points() if coordinates else None
-    for b in mesh.blocks:
-        v = field.values[b.name]
-        C, q, a = v.shape
-        cols[0] += int_cells(np.repeat(b.ids, q))
-        cols[1] += int_cells(np.tile(np.arange(1, q + 1), C))
-        off = 2
-        if coordinates:
-            x = xq[b.name].reshape(C * q, dim)
-            for i in range(dim):
-                cols[off + i] += float_cells(x[:, i])
-            off += dim
-        vv = v.reshape(C * q, a)
-        for j in range(a):
-            cols[off + j] += float_cells(vv[:, j])
+    xq = fields[0][1].physical_points() if coordinates else None
+    for name, f in fields:
+        for b in mesh.blocks:
+            v = f.values[b.name]
+            C, q, a = v.shape
+            if lead:
+                cols[0] += [name] * (C * q)
+            off = len(lead)
+            cols[off] += int_cells(np.repeat(b.ids, q))
+            cols[off + 1] += int_cells(np.tile(np.arange(1, q + 1), C))
+            off += 2
+            if coordinates:
+                x = xq[b.name].reshape(C * q, dim)
+                for i in range(dim):
+                    cols[off + i] += float_cells(x[:, i])
+                off += dim
+            vv = v.reshape(C * q, a)
+            for j in range(a):
+                cols[off + j] += float_cells(vv[:, j])
     write_csv(gfile, header, cols)

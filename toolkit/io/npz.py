@@ -1,6 +1,8 @@
 """The ``.npz`` form of a result set: the mesh, the integration-point field
-and the about record in one compressed NumPy archive, read and written
-without pickles (the same content as the neutral result folder)."""
+(or several load cases: an array ``cases`` of names and each block's values
+shaped (cases, cells, points, components)) and the about record in one
+compressed NumPy archive, read and written without pickles (the same content
+as the neutral result folder)."""
 from __future__ import annotations
 
 import json
@@ -9,6 +11,7 @@ from pathlib import Path
 import numpy as np
 
 from toolkit.errors import InputError
+from toolkit.core.cases import LoadCases
 from toolkit.core.fields import GaussField
 from toolkit.core.mesh import Mesh
 from toolkit.io.about import FORMAT, check_about
@@ -88,7 +91,8 @@ def read_npz_about(path: Path) -> dict:
 
 
 def read_npz(path: Path):
-    """``(mesh, field)`` of the ``.npz`` results file ``path``."""
+    """``(mesh, field)`` of the ``.npz`` results file ``path``; ``(mesh,
+    LoadCases)`` when it holds an array ``cases``."""
     with _open_npz(path) as zz:
         fmt = str(zz.get("format")[()]) if "format" in zz.z.files else None
         if fmt != FORMAT:
@@ -96,6 +100,7 @@ def read_npz(path: Path):
         about = _npz_about(zz, path)
         names = [str(n) for n in zz.get("blocks").ravel()]
         comps = [str(c) for c in zz.get("components").ravel()]
+        cases = [str(c) for c in zz.get("cases").ravel()] if "cases" in zz.z.files else None
         blocks, regs, ids, vals, pts = {}, {}, {}, {}, {}
         nodes, node_ids = zz.get("nodes"), _integers(zz.get("node_ids"), "node_ids", path)
         if nodes.dtype.kind not in "iuf":
@@ -119,15 +124,33 @@ def read_npz(path: Path):
             rule = candidate_rule(et, len(p)) if p.ndim == 2 and p.shape[1] == et.dim else None
             same = rule is not None and np.array_equal(rule.points, p)
             spec[b.name] = rule_spec(et, rule) if same else p
-        field = GaussField(mesh, vals, comps, points=spec, name=about.get("name", "field"))
+        if cases is None:
+            return mesh, GaussField(mesh, vals, comps, points=spec, name=about.get("name", "field"))
+        for n, v in vals.items():
+            if v.ndim != 4 or v.shape[0] != len(cases):
+                raise InputError(f"array {n + '.values'!r} is shaped {v.shape}, expected (cases, cells, points, "
+                                 f"components) with {len(cases)} cases ({', '.join(map(repr, cases))})")
+        if about.get("cases", cases) != cases:
+            raise InputError(f"array 'cases' {cases} differs from the about record's {about['cases']}")
+        fields = {}
+        for i, k in enumerate(cases):
+            if k in fields:
+                raise InputError(f"array 'cases' names load case {k!r} twice")
+            try:
+                fields[k] = GaussField(mesh, {n: v[i] for n, v in vals.items()}, comps, points=spec, name=k)
+            except ValueError as e:
+                raise InputError(f"load case {k!r}: {e}") from None
+        return mesh, LoadCases(fields, name=about.get("name", "cases"))
     except ValueError as e:
         raise InputError(f"{path}: {e}") from None
-    return mesh, field
 
 
 def write_npz(path: Path, mesh, field, about):
-    """Write ``mesh``, ``field`` and the about record ``about`` as one
-    compressed ``.npz`` file, atomically."""
+    """Write ``mesh``, ``field`` (a GaussField or LoadCases) and the about
+    record ``about`` as one compressed ``.npz`` file, atomically."""
+    cases = field if isinstance(field, LoadCases) else None
+    if cases is not None:
+        field = cases[cases.names[0]]
     arrays = {
         "format": np.array(FORMAT),
         "about": np.array(json.dumps(about, sort_keys=True)),
@@ -135,11 +158,14 @@ def write_npz(path: Path, mesh, field, about):
         "blocks": np.array([b.name for b in mesh.blocks]),
         "components": np.array(field.components),
     }
+    if cases is not None:
+        arrays["cases"] = np.array(cases.names)
     for b in mesh.blocks:
         arrays[f"{b.name}.cells"] = b.cells.astype(np.int64)
         arrays[f"{b.name}.regions"] = b.regions
         arrays[f"{b.name}.ids"] = b.ids
-        arrays[f"{b.name}.values"] = field.values[b.name]
+        arrays[f"{b.name}.values"] = (field.values[b.name] if cases is None else
+                                      np.stack([f.values[b.name] for _, f in cases.items()]))
         arrays[f"{b.name}.points"] = field.points[b.name]
 
     def write(f):

@@ -25,9 +25,10 @@ __all__ = ["EMPTY", "Table", "read_csv", "first_duplicate", "first_true", "write
 
 EMPTY = np.iinfo(np.int64).min       # marks an empty optional cell (never a valid id)
 _TYPE_WIDTH = 32                     # longest element type token we read
+_CASE_WIDTH = 64                     # longest load case name we read
 _CHUNK = 20000                       # lines per chunk on the careful path
 _INT_RE = re.compile(r"[+-]?[0-9]+\Z")
-_DTYPES = {"i": "i8", "n": "i8", "f": "f8", "t": f"U{_TYPE_WIDTH}"}
+_DTYPES = {"i": "i8", "n": "i8", "f": "f8", "t": f"U{_TYPE_WIDTH}", "c": f"U{_CASE_WIDTH}"}
 
 
 class Table:
@@ -82,13 +83,15 @@ def _loadtxt(src, dtype, kinds, skiprows):
     for j, k in enumerate(kinds):
         if k == "t" and data.size and (np.strings.str_len(data[f"c{j}"]) >= _TYPE_WIDTH).any():
             raise InputError("type token too long")      # re-read carefully
+        if k == "c" and data.size and (np.strings.str_len(data[f"c{j}"]) >= _CASE_WIDTH).any():
+            raise InputError("case name too long")       # re-read carefully
     return data
 
 
 def read_csv(path: Path, schema) -> Table:
     """Read one CSV file.  ``schema(path, names) -> kinds``, one of ``"i"``
     (integer), ``"n"`` (integer or empty), ``"f"`` (float), ``"t"`` (element
-    type) per column."""
+    type), ``"c"`` (load case name) per column."""
     if not path.is_file():
         raise InputError(f"{path}: file not found")
     try:
@@ -197,6 +200,12 @@ def _parse_cell(c: str, kind: str):
         if not (-2**63 < v < 2**63):
             raise _CellError(f"integer {c} is out of the 64-bit range")
         return v
+    if kind == "c":
+        if not c:
+            raise _CellError("empty cell, expected a load case name")
+        if len(c) >= _CASE_WIDTH:
+            raise _CellError(f"load case name {c[:40]!r}... is longer than {_CASE_WIDTH - 1} characters")
+        return c
     # element type
     if not c:
         raise _CellError("empty cell, expected an element type")

@@ -8,13 +8,14 @@ from dataclasses import dataclass, field as dataclass_field
 from types import MappingProxyType
 from typing import Callable, Mapping
 
+from toolkit.core.cases import LoadCases
 from toolkit.core.fields import GaussField, NodalField
 from toolkit.errors import InputError
 from toolkit.recovery.averaging import average_nodal
-from toolkit.recovery.projection import project_l2
+from toolkit.recovery.projection import L2Projector, project_l2
 from toolkit.recovery.spr import recover_spr
 
-__all__ = ["RecoveryMethod", "METHODS", "recover"]
+__all__ = ["RecoveryMethod", "METHODS", "recover", "recover_cases"]
 
 
 @dataclass(frozen=True)
@@ -66,3 +67,25 @@ def recover(field: GaussField, method: str, across_regions: bool = False, **opti
     if entry is None:
         raise InputError(f"unknown recovery method {method!r}; use one of {', '.join(METHODS)}")
     return entry(field, across_regions=across_regions, **options)
+
+
+def recover_cases(cases: LoadCases, method: str, across_regions: bool = False, **options) -> dict[str, NodalField]:
+    """Recover every load case of ``cases`` with the method named ``method``
+    (as :func:`recover`); returns ``{case name: NodalField}`` in the cases'
+    order.  ``l2`` and ``lumped`` build one :class:`L2Projector` and solve
+    all cases as columns of one block solve
+    (:meth:`L2Projector.project_cases`); ``average`` and ``spr`` run case by
+    case.  Every method is linear, so the results combine as the cases do
+    (:func:`~toolkit.core.cases.combine_nodal`)."""
+    if not isinstance(cases, LoadCases):
+        raise InputError(f"recover_cases expects LoadCases, got {type(cases).__name__}")
+    entry = METHODS.get(method)
+    if entry is None:
+        raise InputError(f"unknown recovery method {method!r}; use one of {', '.join(METHODS)}")
+    if entry.function is project_l2:
+        fixed = sorted(set(options) & set(entry.options))
+        if fixed:
+            raise InputError(f"recovery method {entry.name!r} fixes {', '.join(fixed)}; leave it out")
+        projector = L2Projector(cases.mesh, across_regions=across_regions, **entry.options, **options)
+        return projector.project_cases(cases)
+    return {k: entry(f, across_regions=across_regions, **options) for k, f in cases.items()}

@@ -33,7 +33,9 @@ import time
 import numpy as np
 
 from toolkit.errors import InputError
+from toolkit.core.arrays import chunk_slices
 from toolkit.core.assembly import QuadratureSum, assemble_many, default_threads, per_cell, sum_to_unknowns
+from toolkit.core.cases import LoadCases
 from toolkit.core.cg import CGLayout, block_cg
 from toolkit.core.elements import local_field_exponents, local_field_matrix, rule_of_degree
 from toolkit.core.fields import GaussField, NodalField
@@ -253,11 +255,23 @@ class L2Projector:
         """Project ``field`` (all components at once) to a :class:`NodalField`."""
         t0 = time.perf_counter()
         b = self.rhs(field)
+        self._check_rhs(b, field)
+        x, info = self._solve(b)
+        info["time"] = time.perf_counter() - t0
+        info["setup_time"] = self.setup_time
+        return NodalField(self.mesh, x, field.components, self.dofs.node, self.dofs.region,
+                          method=info["method"], info=info)
+
+    def _check_rhs(self, b, field):
         if not np.isfinite(b).all():
             a = int(np.flatnonzero(~np.isfinite(b).all(axis=0))[0])
             raise InputError(f"the right-hand side of component {field.components[a]} overflows: values of "
                              f"about {np.abs(next(iter(field.values.values()))).max():.3g} times cell sizes "
                              "exceed the floating-point range; rescale the values (units)")
+
+    def _solve(self, b):
+        """Solve ``C x = b`` for every column of ``b`` at once (``b`` is
+        consumed); returns ``x`` in node-row order and the solver details."""
         info = {"method": "lumped" if self.lumped else "l2", "ndof": self.dofs.ndof,
                 "renumbered": self.renumbered, "across_regions": self.dofs.across_regions}
         if self.lumped:
@@ -278,12 +292,53 @@ class L2Projector:
                         relative_residual=res.tolist(), rtol=self.rtol, threads=len(self._parts.threads))
         if self._new_of_old is not None:
             x = x[self._new_of_old]
-        info["time"] = time.perf_counter() - t0
-        info["setup_time"] = self.setup_time
-        return NodalField(self.mesh, x, field.components, self.dofs.node, self.dofs.region,
-                          method=info["method"], info=info)
+        return x, info
 
     __call__ = project
+
+    def project_cases(self, cases: LoadCases, budget: int = 2**27) -> dict[str, NodalField]:
+        """Project every load case of ``cases`` with this one projector: the
+        cases' components are the columns of one block CG solve, so each
+        sparse product reads the matrix once for all of them (projection is
+        linear, so the results combine as the cases do:
+        ``P(Σ w_i σ_i) = Σ w_i P(σ_i)``, see
+        :func:`~toolkit.core.cases.combine_nodal`).
+
+        ``budget``: numbers (8 bytes each) the solve may hold at once; the
+        cases go in chunks of :func:`~toolkit.core.arrays.chunk_slices` with
+        about eight (unknowns x components) arrays per case (right-hand side,
+        solution and the CG work arrays), so memory stays bounded however
+        many cases there are.  Default 2**27 (1 GiB).
+
+        Returns ``{case name: NodalField}`` in the cases' order; each field's
+        ``info`` carries its own columns' iterations and residuals, the chunk
+        it was solved in (``cases_in_solve``) and its share of the time."""
+        if not isinstance(cases, LoadCases):
+            raise InputError(f"project_cases expects LoadCases, got {type(cases).__name__}")
+        if cases.mesh is not self.mesh:
+            raise InputError("the load cases belong to another mesh than this projector was built for")
+        if int(budget) < 1:
+            raise InputError(f"budget must be a positive number of values, got {budget}")
+        names, a = cases.names, cases.ncomponents
+        out = {}
+        for sl in chunk_slices(len(names), 8 * self.dofs.ndof * a, int(budget)):
+            t0 = time.perf_counter()
+            chunk = names[sl]
+            b = np.empty((self.dofs.ndof, len(chunk) * a))
+            for i, k in enumerate(chunk):
+                bk = self.rhs(cases[k])
+                self._check_rhs(bk, cases[k])
+                b[:, i * a:(i + 1) * a] = bk
+            x, info = self._solve(b)
+            share = (time.perf_counter() - t0) / len(chunk)
+            for i, k in enumerate(chunk):
+                ci = dict(info, time=share, setup_time=self.setup_time, cases_in_solve=len(chunk))
+                for key in ("iterations", "relative_residual"):
+                    if key in ci:
+                        ci[key] = ci[key][i * a:(i + 1) * a]
+                out[k] = NodalField(self.mesh, x[:, i * a:(i + 1) * a], cases.components, self.dofs.node,
+                                    self.dofs.region, method=info["method"], info=ci)
+        return out
 
     def __repr__(self):
         kind = "lumped (HRZ)" if self.lumped else f"consistent, {self.solver}"
