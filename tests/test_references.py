@@ -8,8 +8,9 @@ and which were not.
 import numpy as np
 import pytest
 
-from toolkit.assess.references import (fatigue_notch_factor, heywood_kt_net, kirsch_kt, kirsch_ligament,
-                                       peterson_q)
+from toolkit.assess.references import (PLATE_HOLE_KT_RANGE, fatigue_notch_factor, heywood_kt_net, kirsch_kt,
+                                       kirsch_ligament, peterson_q, plate_hole_kt_reference, plate_hole_kt_table)
+from toolkit.errors import InputError
 
 # ---------------------------------------------------------------------------
 # Kirsch: circular hole in an infinite plate
@@ -161,3 +162,76 @@ def test_peterson_q_validity_range_is_warned():
     w = peterson_q_warnings(510.0)
     assert len(w) == 1 and "510" in w[0] and "550" in w[0]
     assert peterson_q_warnings(550.0) == [] and peterson_q_warnings(1200.0) == []
+
+
+# ---------------------------------------------------------------------------
+# Finite-width plate with a hole: the independent reference table
+# ---------------------------------------------------------------------------
+# Issue 16: independent finite-element computation with scikit-fem (curved quadratic triangles, refined
+# until the last steps changed by under 0.05 %), Kt,net at d/W = 0.1 ... 0.5.  Not Howland (1930).
+ISSUE_16_KT_NET = {0.1: 2.7325, 0.2: 2.5220, 0.3: 2.3621, 0.4: 2.2483, 0.5: 2.1738}
+
+
+def test_plate_hole_reference_table_is_the_issue_16_computation():
+    """The data file holds exactly the values of issue 16, states its source
+    and conditions, and does not claim Howland's table."""
+    t = plate_hole_kt_table()
+    assert dict(zip(t["d_over_W"], t["kt_net"])) == ISSUE_16_KT_NET
+    assert "scikit-fem" in t["source"] and "issue 16" in t["source"]
+    assert "plane stress and plane strain" in t["analysis"]
+    assert "Howland" in t["not"]
+    assert PLATE_HOLE_KT_RANGE == (min(t["d_over_W"]), max(t["d_over_W"]))
+
+
+@pytest.mark.parametrize("d_over_w", sorted(ISSUE_16_KT_NET))
+def test_plate_hole_reference_passes_through_the_table(d_over_w):
+    """Interpolation reproduces every tabulated value (issue 16)."""
+    assert plate_hole_kt_reference(d_over_w) == pytest.approx(ISSUE_16_KT_NET[d_over_w], rel=1e-12)
+
+
+def test_plate_hole_reference_interpolation_is_monotone_and_close_to_the_quartic():
+    """Between the points: monotone falling like the table, and within 0.02 %
+    of the quartic through all five points (a second interpolant, closed
+    form): the interpolation adds far less than the table's own 0.05 %."""
+    x = np.linspace(*PLATE_HOLE_KT_RANGE, 201)
+    ref = np.array([plate_hole_kt_reference(v) for v in x])
+    assert np.all(np.diff(ref) < 0)
+    c = np.polyfit(list(ISSUE_16_KT_NET), list(ISSUE_16_KT_NET.values()), 4)
+    assert np.max(np.abs(np.polyval(c, x) / ref - 1)) < 2e-4
+
+
+def test_heywood_error_against_the_reference():
+    """Issue 16: Heywood's formula is 0.13 % to 2.25 % low over d/W 0.1..0.5
+    against the independent reference (the ends by hand: 2.729 / 2.7325 - 1
+    = -0.128 %, 2.125 / 2.1738 - 1 = -2.245 %)."""
+    x = np.linspace(*PLATE_HOLE_KT_RANGE, 81)
+    err = np.array([heywood_kt_net(v) / plate_hole_kt_reference(v) - 1 for v in x])
+    assert np.all(err < 0)
+    assert -0.0013 <= err.max() and err.max() < -0.0012
+    assert -0.0225 <= err.min() and err.min() < -0.0224
+    assert np.all(np.diff(err) < 0)                       # the error grows with d/W
+
+
+@pytest.mark.parametrize("bad", [0.05, 0.09, 0.51, 0.9, -0.1, float("nan")])
+def test_plate_hole_reference_outside_its_range_is_refused(bad):
+    """No extrapolation: outside 0.1..0.5 an InputError naming the range."""
+    with pytest.raises(InputError, match=r"d_over_w must lie in \[0.1, 0.5\]"):
+        plate_hole_kt_reference(bad)
+
+
+@pytest.mark.parametrize("d_over_w", [0.1, 0.5])
+def test_plate_model_converges_onto_the_reference_from_above(d_over_w):
+    """Issue 16: the toolkit's quarter model converges onto the independent
+    values from above; at 16 elements on each half of the quarter hole edge (pi a/64) it lies
+    above the reference by under 0.1 %, at 4 elements by more."""
+    import toolkit as tk
+    from toolkit.fem.models import plate_with_hole
+    from toolkit.fem.solver import solve
+
+    a = 50.0 * d_over_w
+    errs = []
+    for n in (4, 16):
+        m = plate_with_hole(100.0, 300.0, 2 * a, element_size=np.pi / 4 * a / n)
+        kt = tk.project_l2(solve(m).stress).component("sxx")[m.points["peak"]] / m.nominal["net"]
+        errs.append(kt / plate_hole_kt_reference(d_over_w) - 1)
+    assert 0 < errs[1] < 0.001 < errs[0]

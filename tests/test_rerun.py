@@ -172,7 +172,7 @@ def test_input_problems_are_exit_2_before_any_kernel(tmp_path, capsys, no_kernel
 @pytest.mark.parametrize("workbook, given, rule", [
     ("plate_with_hole", ["hole_diameter=150"], "hole_diameter < width"),
     ("shoulder_fillet", ["small_width=70"], "small_width < large_width"),
-    ("weld_toe", ["weld_leg=0.4"], "element_size <= min(plate_thickness, weld_leg) / 2"),
+    ("weld_toe", ["weld_leg=0.4", "element_size=0.25"], "element_size <= min(plate_thickness, weld_leg) / 2"),
 ])
 def test_shipped_workbooks_check_their_rules_before_running(tmp_path, capsys, no_kernel, workbook, given, rule):
     argv = ["render", workbook, "--out", str(tmp_path / "out")]

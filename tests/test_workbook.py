@@ -332,3 +332,50 @@ def test_failing_cell_writes_notebook_and_raises(tmp_path):
     # no new report; the earlier summary is untouched, no staging folder or lock is left
     assert sorted(p.name for p in out.iterdir()) == ["broken.failed.ipynb", "broken.summary.json"]
     assert (out / "broken.summary.json").read_text() == "{}"
+
+
+# ---------------------------------------------------------------------------
+# rules joined by or/and, string and bool comparisons (common practice: the
+# rule grammar is ours; these check its behaviour)
+# ---------------------------------------------------------------------------
+_RULE_CELL = '''shape = "flat"     # one of: "flat", "shaft"
+load = "tension"   # one of: "tension", "bending"; rule: shape == "flat" or load == "tension"
+w = 10.0           # range: 0 < x <= 100
+h = 0.0            # 0: scaled; range: 0 <= x <= 5; rule: h == 0 or h >= w / 400 and h <= w / 2
+notch = False      # rule: notch == False or w >= 6
+'''
+
+
+@pytest.mark.parametrize("given", [{}, {"shape": "shaft"}, {"load": "bending"}, {"h": 0.025}, {"h": 5.0},
+                                   {"notch": True}])
+def test_rules_with_or_strings_and_bools_hold(given):
+    from toolkit.workbook.parameters import parse_parameters, resolve_values
+    values, _ = resolve_values(parse_parameters(_RULE_CELL, "t"), given, "t")
+    assert all(values[k] == v for k, v in given.items())
+
+
+@pytest.mark.parametrize("given, shown", [
+    ({"shape": "shaft", "load": "bending"}, "shape = 'shaft', load = 'bending'"),
+    ({"h": 0.02}, "h = 0.02, w = 10"),
+    ({"notch": True, "w": 5.0}, "notch = True, w = 5"),
+])
+def test_rules_with_or_strings_and_bools_are_broken(given, shown):
+    from toolkit.errors import ParameterError
+    from toolkit.workbook.parameters import parse_parameters, resolve_values
+    with pytest.raises(ParameterError, match="does not hold") as e:
+        resolve_values(parse_parameters(_RULE_CELL, "t"), given, "t")
+    assert shown in str(e.value)
+
+
+@pytest.mark.parametrize("cell, why", [
+    ('x = "a"  # rule: x < "b"', "may only be compared by == or !="),
+    ('x = "a"\ny = 1.0  # rule: x == y', "compared with a value of another kind"),
+    ('x = True\ny = 1.0  # rule: y + x == 2', "appears inside arithmetic"),
+    ('x = 1.0  # rule: x == 1 or 2', "not a comparison"),
+    ('x = 1.0  # rule: not x == 1', "not a comparison"),
+])
+def test_rules_mixing_kinds_are_refused(cell, why):
+    from toolkit.errors import ParameterError
+    from toolkit.workbook.parameters import parse_parameters
+    with pytest.raises(ParameterError, match=why):
+        parse_parameters(cell, "t")

@@ -34,7 +34,11 @@ carry constraints, as clauses separated by ``;``::
   known: a comparison chain (``<``, ``<=``, ``>``, ``>=``, ``==``, ``!=``) of
   arithmetic (``+ - * /``, parentheses, ``min(...)``, ``max(...)``) over
   numeric parameters of the cell and numbers, e.g. ``rule: hole_diameter <
-  width``.  Any assignment's comment may carry rules.
+  width``; or a string parameter compared with a string by ``==`` or
+  ``!=`` (``shape == "flat"``), a bool one with ``True`` or ``False``; comparisons joined by ``or`` and ``and``
+  (``rule: shape == "flat" or load == "tension"``, ``rule: element_size ==
+  0 or element_size >= width / 400``).  Any assignment's comment may carry
+  rules.
 * any other clause is free text (unit, description).  A free-text clause that
   contains ``range:``, ``one of:``, ``items:``, ``length:``, ``rule:``, ``<``
   or ``>`` is refused as a malformed constraint, so a mistyped constraint is
@@ -217,7 +221,23 @@ def _parse_comment(comment, name, ptype, where):
 
 _RULE_OPS = {ast.Lt: "<", ast.LtE: "<=", ast.Gt: ">", ast.GtE: ">=", ast.Eq: "==", ast.NotEq: "!="}
 _RULE_NODES = (ast.Expression, ast.Compare, ast.BinOp, ast.UnaryOp, ast.Name, ast.Constant, ast.Load, ast.Call,
-               ast.Add, ast.Sub, ast.Mult, ast.Div, ast.USub, ast.UAdd, *_RULE_OPS)
+               ast.Add, ast.Sub, ast.Mult, ast.Div, ast.USub, ast.UAdd, ast.BoolOp, ast.Or, ast.And, *_RULE_OPS)
+
+
+def _rule_comparisons(node):
+    """The comparisons of a rule body (a comparison, or several joined by
+    ``or``/``and``), or None when the body is something else."""
+    if isinstance(node, ast.Compare):
+        return [node]
+    if isinstance(node, ast.BoolOp):
+        out = []
+        for v in node.values:
+            sub = _rule_comparisons(v)
+            if sub is None:
+                return None
+            out += sub
+        return out
+    return None
 
 
 def _parse_rule(text, where):
@@ -227,15 +247,16 @@ def _parse_rule(text, where):
         tree = ast.parse(src, mode="eval")
     except SyntaxError:
         raise ParameterError(f"{where}: cannot read rule {src!r}; write e.g. 'rule: hole_diameter < width'") from None
-    if not isinstance(tree.body, ast.Compare):
-        raise ParameterError(f"{where}: rule {src!r} is not a comparison such as 'hole_diameter < width'")
+    if _rule_comparisons(tree.body) is None:
+        raise ParameterError(f"{where}: rule {src!r} is not a comparison such as 'hole_diameter < width' "
+                             "(or comparisons joined by 'or' and 'and')")
     for node in ast.walk(tree):
         if not isinstance(node, _RULE_NODES):
             raise ParameterError(f"{where}: rule {src!r} may use only parameter names, numbers, + - * /, "
-                                 "min(), max() and comparisons")
-        if isinstance(node, ast.Constant) and (isinstance(node.value, bool)
-                                               or not isinstance(node.value, (int, float))):
-            raise ParameterError(f"{where}: rule {src!r}: only numbers may appear as constants")
+                                 "min(), max(), comparisons, 'or' and 'and'")
+        if isinstance(node, ast.Constant) and not isinstance(node.value, (int, float, str)):
+            raise ParameterError(f"{where}: rule {src!r}: only numbers, strings and True/False may appear as "
+                                 "constants")
         if isinstance(node, ast.Call) and not (isinstance(node.func, ast.Name) and node.func.id in ("min", "max")
                                                and node.args and not node.keywords):
             raise ParameterError(f"{where}: rule {src!r}: the only functions are min() and max()")
@@ -267,14 +288,57 @@ def _eval_rule_node(node, values):
     raise AssertionError(node)  # pragma: no cover - _parse_rule refuses other nodes
 
 
-def rule_holds(src, values):
-    """Whether rule ``src`` (a ``rule:`` clause) holds for ``values``."""
-    tree = ast.parse(src, mode="eval").body
-    operands = [tree.left] + list(tree.comparators)
-    vals = [_eval_rule_node(o, values) for o in operands]
+def _kind(node, types):
+    """``str`` or ``bool`` for a rule operand that is a constant or a
+    parameter of that type, else ``None`` (numeric)."""
+    if isinstance(node, ast.Constant) and isinstance(node.value, (str, bool)):
+        return type(node.value)
+    if isinstance(node, ast.Name) and types.get(node.id) in (str, bool):
+        return types[node.id]
+    return None
+
+
+def _check_rule_types(src, types):
+    """Why rule ``src`` mixes kinds wrongly for parameters of these ``types``
+    (``{name: type}``), or ``""``: a string (or a bool) may only be compared,
+    by ``==`` or ``!=``, with another string (bool); everything else must be
+    numeric."""
+    for cmp in _rule_comparisons(ast.parse(src, mode="eval").body):
+        operands = [cmp.left] + list(cmp.comparators)
+        kinds = {_kind(o, types) for o in operands}
+        if kinds != {None}:
+            if len(kinds) > 1:
+                return "a string or bool is compared with a value of another kind"
+            if any(_RULE_OPS[type(op)] not in ("==", "!=") for op in cmp.ops):
+                return "strings and bools may only be compared by == or !="
+            continue
+        for node in operands:
+            for n in ast.walk(node):
+                if (isinstance(n, ast.Constant) and isinstance(n.value, (str, bool))) or \
+                        (isinstance(n, ast.Name) and types.get(n.id) in (str, bool)):
+                    return f"{ast.unparse(n)} (a string or bool) appears inside arithmetic"
+    return ""
+
+
+def _compare_holds(cmp, values):
+    vals = [_eval_rule_node(o, values) for o in [cmp.left] + list(cmp.comparators)]
+    if any(isinstance(v, (str, bool)) for v in vals):
+        return all((a == b) == (_RULE_OPS[type(op)] == "==") for op, a, b in zip(cmp.ops, vals, vals[1:]))
     ops = {"<": float.__lt__, "<=": float.__le__, ">": float.__gt__, ">=": float.__ge__,
            "==": float.__eq__, "!=": float.__ne__}
-    return all(ops[_RULE_OPS[type(op)]](float(a), float(b)) for op, a, b in zip(tree.ops, vals, vals[1:]))
+    return all(ops[_RULE_OPS[type(op)]](float(a), float(b)) for op, a, b in zip(cmp.ops, vals, vals[1:]))
+
+
+def _rule_node_holds(node, values):
+    if isinstance(node, ast.BoolOp):
+        parts = (_rule_node_holds(v, values) for v in node.values)
+        return any(parts) if isinstance(node.op, ast.Or) else all(parts)
+    return _compare_holds(node, values)
+
+
+def rule_holds(src, values):
+    """Whether rule ``src`` (a ``rule:`` clause) holds for ``values``."""
+    return _rule_node_holds(ast.parse(src, mode="eval").body, values)
 
 
 def check_rules(params, values, label):
@@ -283,7 +347,9 @@ def check_rules(params, values, label):
     for p in params.values():
         for src in p.rules:
             if not rule_holds(src, values):
-                shown = ", ".join(f"{n} = {fmt(values[n], 6)}" for n in dict.fromkeys(_rule_names(src)))
+                shown = ", ".join(f"{n} = {values[n]!r}" if isinstance(values[n], (str, bool))
+                                  else f"{n} = {fmt(values[n], 6)}"
+                                  for n in dict.fromkeys(_rule_names(src)))
                 broken.append(f"rule {src!r} of {label} does not hold ({shown})")
     if broken:
         raise ParameterError("; ".join(broken))
@@ -377,9 +443,12 @@ def parse_parameters(source, workbook="workbook"):
     for p in params.values():
         for src in p.rules:
             for n in _rule_names(src):
-                if n not in params or params[n].type not in (int, float):
-                    raise ParameterError(f"rule {src!r} of {workbook} (line {p.line}): {n!r} is not a numeric "
-                                         "parameter of the cell")
+                if n not in params or params[n].type not in (int, float, str, bool):
+                    raise ParameterError(f"rule {src!r} of {workbook} (line {p.line}): {n!r} is not a numeric, "
+                                         "string or bool parameter of the cell")
+            why = _check_rule_types(src, {n: q.type for n, q in params.items()})
+            if why:
+                raise ParameterError(f"rule {src!r} of {workbook} (line {p.line}): {why}")
     check_rules(params, {n: p.default for n, p in params.items()}, f"{workbook} (defaults)")
     return params
 

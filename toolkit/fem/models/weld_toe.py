@@ -31,7 +31,7 @@ from toolkit.fem.material import Material
 from toolkit.fem.supports import Displacement, Roller
 from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line
 
-__all__ = ["weld_toe"]
+__all__ = ["weld_toe", "weld_toe_sizes"]
 
 STEEL = Material(210_000.0, 0.3, "steel (MPa)")
 
@@ -245,3 +245,30 @@ def _points(mesh, d: _Dimensions, lay: _Layout) -> dict:
     if d.rho is not None:
         points["rounding_start"] = node_at(lay.Qw)
     return points
+
+
+def weld_toe_sizes(plate_thickness, weld_leg, element_size=0.0) -> tuple[float, float]:
+    """Element size at a sharp toe for :func:`weld_toe`, scaled to the joint,
+    and the coarsest size a mesh convergence study may use.
+
+    With the feature length ``l = min(t, 2 leg)`` (the plate thickness, or
+    twice the weld leg when the weld is small): ``h = element_size`` when it
+    is positive, else the scaled default ``h = l / 48`` (0.25 mm for t = 12,
+    leg 8); the study's coarsest size is ``l / 12``, which never exceeds the
+    mesher's limit ``min(t, leg) / 2``.  The IIW type "a" read-out points at
+    0.4 t and 1.0 t then lie about 19 and 48 elements from the toe (IIW
+    recommendations, 2016: fine meshes of at most 0.4 t at the toe; the
+    finer default is common practice for a convergence study).
+
+    Returns ``(h, coarsest)`` in mm.
+    """
+    t, leg = float(plate_thickness), float(weld_leg)
+    for name, v in (("plate_thickness", t), ("weld_leg", leg)):
+        if not (np.isfinite(v) and v > 0):
+            raise InputError(f"weld_toe_sizes: {name} must be positive, got {v!r}")
+    if isinstance(element_size, bool) or not (np.isfinite(float(element_size)) and float(element_size) >= 0):
+        raise InputError(f"weld_toe_sizes: element_size must be 0 (the scaled default) or a positive size "
+                         f"in mm, got {element_size!r}")
+    ell = min(t, 2 * leg)
+    h = float(element_size) if element_size > 0 else ell / 48
+    return h, ell / 12
