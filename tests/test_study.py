@@ -105,7 +105,7 @@ def test_interrupted_study_resumes_from_the_command_line(pool_study, tmp_path, c
                      "--quiet", "--plot", "kt_net,kt_net_heywood:hole_diameter"])
     err = capsys.readouterr()
     assert code == 1
-    assert "5 variants done" not in err.out and "4 of 5 variants done (3 already up to date)" in err.out
+    assert "4 of 5 variants done (3 already up to date)" in err.out
     assert err.err.count("error: variant") == 1 and "element_size=4" in err.err
     assert (gone / "plate_with_hole.summary.json").is_file()
     assert _rows(out / STUDY_CSV) == _rows(pool_study.out / STUDY_CSV)
