@@ -12,6 +12,14 @@ render WORKBOOK [--set name=value ...] [--params file.json] [TITLE] [--pdf] --ou
     Execute a workbook with its parameters and write the executed notebook,
     an offline HTML report and <name>.summary.json (toolkit.workbook); with
     ``--pdf`` also a PDF of the report (needs a headless Chromium).
+study WORKBOOK (--vary NAME=V1,V2,... ... | --sets FILE.csv) --out DIR [--workers N | --cluster ADDRESS|local:N]
+        [--plot Y[,Y2]:X ...] [TITLE]
+    Render a workbook once per parameter set (the cross product of the
+    ``--vary`` lists, or one row of ``--sets`` per variant, an empty cell
+    keeping the default) into DIR/<variant>/, skipping variants whose report is
+    complete with the same inputs, and write DIR/study.csv and DIR/study.html;
+    exit 0 every variant rendered, 1 some failed (listed on stderr), 2 bad
+    input (every variant is checked before anything runs).
 new TEMPLATE NAME [TITLE] --out DIR
     Start a workbook for a new component from one of the templates.
 
@@ -232,6 +240,87 @@ def _cmd_render(args) -> int:
     return 0
 
 
+def _split_values(text: str) -> list:
+    """``V1,V2,...`` -> values, each read as JSON where possible, else as text."""
+    from toolkit.workbook.parameters import parse_assignment
+
+    return [parse_assignment(f"x={v}")[1] for v in text.split(",")]
+
+
+def _study_sets(args) -> list:
+    """The study's parameter sets from ``--vary`` (cross product) or ``--sets`` (one CSV row each)."""
+    from toolkit.errors import ParameterError
+    from toolkit.workbook.study import grid
+
+    if bool(args.vary) == bool(args.sets):
+        raise ParameterError("give the variants either with --vary NAME=V1,V2,... (repeatable) or with --sets FILE.csv")
+    if args.vary:
+        vary = {}
+        for a in args.vary:
+            name, sep, vals = a.partition("=")
+            name = name.strip()
+            if not sep or not name.isidentifier() or not vals.strip():
+                raise ParameterError(f"--vary {a!r}: write NAME=V1,V2,..., e.g. --vary width=80,100,120")
+            if name in vary:
+                raise ParameterError(f"--vary {name} given twice")
+            vary[name] = _split_values(vals)
+        return grid(vary)
+    return _read_sets(Path(args.sets))
+
+
+def _read_sets(path: Path) -> list:
+    """One dict per row of a CSV file whose header names parameters (an empty cell keeps the default)."""
+    import csv
+
+    from toolkit.errors import ParameterError
+    from toolkit.workbook.parameters import parse_assignment
+
+    try:
+        with open(path, newline="", encoding="utf-8-sig") as f:
+            rows = list(csv.reader(f))
+    except FileNotFoundError:
+        raise ParameterError(f"--sets {path}: file not found") from None
+    rows = [r for r in rows if any(c.strip() for c in r)]
+    if len(rows) < 2:
+        raise ParameterError(f"--sets {path}: expected a header of parameter names and at least one row")
+    header = [h.strip() for h in rows[0]]
+    bad = [h for h in header if not h.isidentifier()]
+    if bad or len(set(header)) != len(header):
+        raise ParameterError(f"--sets {path}: the header must name each parameter once (bad: {bad or 'a repeat'})")
+    sets = []
+    for i, r in enumerate(rows[1:], 2):
+        if len(r) != len(header):
+            raise ParameterError(f"--sets {path} line {i}: {len(r)} cells for {len(header)} columns")
+        sets.append({h: parse_assignment(f"{h}={c.strip()}")[1] for h, c in zip(header, r) if c.strip()})
+    return sets
+
+
+def _cmd_study(args) -> int:
+    """Exit code 0 all variants rendered, 1 some failed (listed), 2 bad input."""
+    from contextlib import nullcontext
+
+    from toolkit.errors import InputError
+    from toolkit.workbook.study import check_study, cluster_executor, render_many
+    from toolkit.workbook.study_table import parse_plot
+
+    sets = _study_sets(args)
+    plots = [parse_plot(p) for p in args.plot] or None
+    if args.workers is not None and args.workers < 1:
+        raise InputError(f"--workers {args.workers}: give 1 or more")
+    if args.cluster and args.workers is not None:
+        raise InputError("give --workers (a local pool) or --cluster, not both")
+    check_study(args.workbook, sets, args.out)       # every variant checked before a cluster starts
+    with (cluster_executor(args.cluster) if args.cluster else nullcontext()) as executor:
+        r = render_many(args.workbook, sets, args.out, executor, workers=args.workers, timeout=args.timeout,
+                        title=_title(args), progress=not args.quiet, plots=plots)
+    done = [v for v in r.variants if v.status == "done"]
+    print(f"{len(done)} of {len(r.variants)} variants done ({sum(v.skipped for v in done)} already up to date) "
+          f"in {r.seconds:.1f} s; table {r.csv}, {r.html}")
+    for v in r.failed:
+        print(f"error: variant {v.folder} {v.status}: {v.reason}", file=sys.stderr)
+    return 1 if r.failed else 0
+
+
 def _cmd_new(args) -> int:
     from toolkit.workbook.create import new_workbook
 
@@ -310,6 +399,30 @@ def _add_render(sub):
     p.set_defaults(func=_cmd_render)
 
 
+def _add_study(sub):
+    p = sub.add_parser("study", help="render a workbook over many parameter sets, with a table and plots",
+                       description="Render a workbook once per parameter set into DIR/<variant>/ (in parallel), "
+                                   "then write DIR/study.csv and DIR/study.html. Variants whose report is "
+                                   "complete with the same inputs are skipped, so a re-run completes the rest.")
+    p.add_argument("workbook", help="workbook name in workbooks/ or path to an .ipynb")
+    p.add_argument("--vary", action="append", default=[], metavar="NAME=V1,V2,...",
+                   help="values of one parameter (each read as JSON where possible); repeatable: the cross product")
+    p.add_argument("--sets", metavar="FILE.csv",
+                   help="one variant per row; the header names the parameters, an empty cell keeps the default")
+    p.add_argument("--out", required=True, metavar="DIR", help="study folder")
+    p.add_argument("--workers", type=int, metavar="N", help="processes of the local pool (default: CPU count)")
+    p.add_argument("--cluster", metavar="ADDRESS",
+                   help="a Dask scheduler address (tcp://host:8786), or local:N for a local Dask cluster of N "
+                        "workers (needs stresspath[cluster])")
+    p.add_argument("--plot", action="append", default=[], metavar="Y[,Y2]:X",
+                   help="plot summary values Y against parameter X in study.html; repeatable "
+                        "(default: the key values against the first varied parameter)")
+    p.add_argument("--timeout", type=float, default=600, metavar="S", help="seconds allowed per cell (600)")
+    p.add_argument("--quiet", action="store_true", help="no progress bar")
+    _title_options(p)
+    p.set_defaults(func=_cmd_study)
+
+
 def _add_new(sub):
     p = sub.add_parser("new", help="start a calculation from a template workbook",
                        description="Copy a template workbook to DIR/NAME.ipynb with outputs cleared "
@@ -328,7 +441,7 @@ def build_parser() -> argparse.ArgumentParser:
     from toolkit import __version__
     parser.add_argument("--version", action="version", version=f"stresspath {__version__}")
     sub = parser.add_subparsers(dest="command", metavar="COMMAND")
-    for add in (_add_recover, _add_export_vtu, _add_demo, _add_render, _add_new):
+    for add in (_add_recover, _add_export_vtu, _add_demo, _add_render, _add_study, _add_new):
         add(sub)
     return parser
 

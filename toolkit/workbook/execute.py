@@ -54,6 +54,10 @@ so any file a workbook writes lands beside its report, never in
 --nbval`` the kernel already runs in the workbook's folder, and
 :func:`workbook_dir` returns that).
 
+The kernel listens on local (IPC) sockets under a path of its own, not on
+TCP ports, so renders running in parallel (:func:`toolkit.workbook.render_many`)
+cannot race for a port (see :data:`KERNEL_TRANSPORT`).
+
 The notebook libraries (nbformat, nbclient, tqdm) are imported when needed.
 """
 from __future__ import annotations
@@ -79,9 +83,14 @@ from toolkit.workbook.notebook import (clean_notebook, clear_outputs, drop_injec
 from toolkit.workbook.parameters import parse_parameters, read_parameters_file, resolve_values
 from toolkit.workbook.title import run_title
 
-__all__ = ["render", "RenderResult", "workbook_dir", "WORKBOOK_DIR_ENV", "KERNELSPEC"]
+__all__ = ["render", "check_render", "RenderResult", "workbook_dir", "WORKBOOK_DIR_ENV", "KERNELSPEC",
+           "KERNEL_TRANSPORT", "LOCK_FILE", "report_complete"]
 
 KERNELSPEC = {"display_name": "Python 3 (ipykernel)", "language": "python", "name": "python3"}
+#: How render's kernel talks to it: local (Unix domain) sockets where the system has them, so
+#: renders running in parallel (a parameter study) never race for the same TCP ports
+#: ("Address already in use"); TCP on Windows.
+KERNEL_TRANSPORT = "tcp" if os.name == "nt" else "ipc"
 
 
 def workbook_dir() -> Path:
@@ -107,6 +116,22 @@ def _kernel_manager_class():
         @default("kernel_spec_manager")
         def _here_specs(self):
             return _HereSpecs(parent=self)
+
+        @default("transport")
+        def _ipc_transport(self):
+            return KERNEL_TRANSPORT
+
+        @default("ip")
+        def _own_ipc_path(self):
+            # with IPC the "ip" is the socket files' path prefix; jupyter_client's default
+            # ("kernel-ipc" in the working directory, numbered from 1) would be shared by
+            # parallel kernels, so each kernel gets its own prefix in the temporary folder
+            if self.transport != "ipc":
+                return super()._ip_default()
+            import tempfile
+            import uuid
+
+            return os.path.join(tempfile.gettempdir(), f"stresspath-kernel-{uuid.uuid4().hex}-ipc")
 
     return _HereKernelManager
 
@@ -248,6 +273,7 @@ def _stop_kernel(client):
         client.kc.stop_channels()
     if getattr(client, "km", None) is not None:
         client.km.cleanup_connection_file()
+        client.km.cleanup_ipc_files()      # the socket files of an IPC kernel that was killed
 
 
 def _execute(run: _Run, failed_path, timeout, progress) -> int:
@@ -426,6 +452,38 @@ def _install(staged: dict, paths: dict):
     finally:
         if block:
             signal.pthread_sigmask(signal.SIG_SETMASK, old)
+
+
+def check_render(workbook, out_dir, params=None) -> tuple[dict, str]:
+    """Check a run as :func:`render` would, without running anything.
+
+    Returns ``(parameters, inputs_hash)``: the run's full parameter values
+    (defaults plus ``params``, as JSON-ready values) and the inputs hash its
+    ``<name>.summary.json`` would carry (:func:`toolkit.report.summary.inputs_hash`
+    of them and of :func:`~toolkit.report.summary.inputs_record`).  Raises
+    :class:`ParameterError` for a bad value and :class:`WorkbookError` for an
+    output folder render would refuse, as render does, before anything is written.
+    """
+    run = _check_run(workbook, out_dir, params, None)
+    _check_targets(run, _report_paths(run.out, run.name))
+    values = plain(run.values, "parameters")
+    return values, inputs_hash(values, run.inputs)
+
+
+def report_complete(out_dir, name, expected_hash=None) -> bool:
+    """Whether ``out_dir`` holds a whole report of workbook ``name`` (notebook,
+    HTML and summary, the files :func:`render` installs together), and, if
+    ``expected_hash`` is given, one whose summary carries that inputs hash."""
+    paths = _report_paths(Path(out_dir), name)
+    if not all(paths[k].is_file() for k in ("notebook", "html", "summary")):
+        return False
+    if expected_hash is None:
+        return True
+    try:
+        data = json.loads(paths["summary"].read_text(encoding="utf-8"))
+    except (OSError, ValueError):
+        return False
+    return isinstance(data, dict) and data.get("inputs_hash") == expected_hash
 
 
 def render(workbook, out_dir, params=None, params_file=None, timeout=600, progress=True, title=None,
