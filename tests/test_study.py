@@ -21,9 +21,11 @@ from toolkit.workbook.study import DONE, FAILED, NOT_RUN, check_study, cluster_e
 from toolkit.workbook.study_table import STUDY_CSV, STUDY_HTML, parse_plot
 
 GOOD = grid({"width": [100.0, 80.0], "hole_diameter": [20.0, 30.0], "element_size": [2.5]})
-# passes the parameters cell (element_size <= d/2) but the convergence study's coarsest mesh,
-# 4 x element_size = 16 mm, is refused in a cell: a run-time failure of this variant alone
-BAD = {"width": 100.0, "hole_diameter": 20.0, "element_size": 4.0}
+# every documented parameter range renders (issue 16), so the failing variant comes from a copy of the
+# workbook with one planted cell that fails for this hole diameter only: a run-time failure of one
+# variant (as a file missing on one machine would give), which must not stop the others
+BAD = {"width": 100.0, "hole_diameter": 25.0, "element_size": 2.5}
+PLANTED = "planted failure for hole_diameter = 25"
 PLOT = [(["kt_net", "kt_net_heywood"], "hole_diameter")]
 
 
@@ -33,16 +35,30 @@ def _rows(path):
 
 
 @pytest.fixture(scope="module")
-def pool_study(tmp_path_factory):
+def workbook(tmp_path_factory):
+    """plate_with_hole with one planted last cell that fails for the BAD variant only."""
+    import nbformat
+    from importlib.resources import files
+    nb = nbformat.reads((files("toolkit.workbooks") / "plate_with_hole.ipynb").read_text(encoding="utf-8"),
+                        as_version=4)
+    nb.cells.append(nbformat.v4.new_code_cell(
+        f"if hole_diameter == 25.0:\n    raise RuntimeError({PLANTED!r})"))
+    path = tmp_path_factory.mktemp("planted") / "plate_with_hole.ipynb"
+    nbformat.write(nb, path)
+    return path
+
+
+@pytest.fixture(scope="module")
+def pool_study(tmp_path_factory, workbook):
     out = tmp_path_factory.mktemp("study") / "pool"
-    return render_many("plate_with_hole", GOOD + [BAD], out, workers=2, plots=PLOT)
+    return render_many(workbook, GOOD + [BAD], out, workers=2, plots=PLOT)
 
 
 def test_pool_study_renders_each_variant_and_bad_one_fails_alone(pool_study):
     r = pool_study
     assert [v.status for v in r.variants] == [DONE] * 4 + [FAILED]
     bad = r.variants[-1]
-    assert "failed in cell" in bad.reason and "element_size" in bad.reason
+    assert "failed in cell" in bad.reason and PLANTED in bad.reason
     assert str(r.out) not in bad.reason                 # the table names files relative to the study
     assert (r.out / bad.folder / "plate_with_hole.failed.ipynb").is_file()
     for v in r.variants[:4]:
@@ -84,16 +100,16 @@ def test_study_csv_and_html(pool_study):
     assert "qualified engineer" in page
 
 
-def test_local_dask_cluster_gives_the_same_table(pool_study, tmp_path):
+def test_local_dask_cluster_gives_the_same_table(pool_study, workbook, tmp_path):
     pytest.importorskip("distributed")
     with cluster_executor("local:2") as ex:
-        r = render_many("plate_with_hole", GOOD, tmp_path / "dask", ex, plots=PLOT)
+        r = render_many(workbook, GOOD, tmp_path / "dask", ex, plots=PLOT)
     assert [v.status for v in r.variants] == [DONE] * 4
     pool_rows = [row for row in _rows(pool_study.out / STUDY_CSV) if row[1] != "failed"]
     assert _rows(r.out / STUDY_CSV) == pool_rows
 
 
-def test_interrupted_study_resumes_from_the_command_line(pool_study, tmp_path, capsys):
+def test_interrupted_study_resumes_from_the_command_line(pool_study, workbook, tmp_path, capsys):
     out = tmp_path / "resume"
     shutil.copytree(pool_study.out, out)
     gone = out / pool_study.variants[1].folder
@@ -101,12 +117,12 @@ def test_interrupted_study_resumes_from_the_command_line(pool_study, tmp_path, c
     sets = tmp_path / "sets.csv"
     sets.write_text("width,hole_diameter,element_size\n" + "".join(
         f"{s['width']},{s['hole_diameter']},{s['element_size']}\n" for s in GOOD + [BAD]))
-    code = cli.main(["study", "plate_with_hole", "--sets", str(sets), "--out", str(out), "--workers", "2",
+    code = cli.main(["study", str(workbook), "--sets", str(sets), "--out", str(out), "--workers", "2",
                      "--quiet", "--plot", "kt_net,kt_net_heywood:hole_diameter"])
     err = capsys.readouterr()
     assert code == 1
     assert "4 of 5 variants done (3 already up to date)" in err.out
-    assert err.err.count("error: variant") == 1 and "element_size=4" in err.err
+    assert err.err.count("error: variant") == 1 and "hole_diameter=25" in err.err
     assert (gone / "plate_with_hole.summary.json").is_file()
     assert _rows(out / STUDY_CSV) == _rows(pool_study.out / STUDY_CSV)
 
