@@ -2,12 +2,16 @@
 
 Commands
 --------
-recover RESULTS --method l2|lumped|average|spr [--across-regions] --out nodal.csv
+recover RESULTS --method l2|lumped|average|spr [--across-regions] [--case NAME] --out nodal.csv
     Read a result folder or ``.npz`` file, recover a nodal field, write it as
     CSV with columns ``node,region,<components>``.
-export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] --out model.vtu
+export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] [--case NAME] --out model.vtu
     Write the mesh, the recovered nodal field (point data) and the raw
     integration-point values (cell data) as a VTK XML unstructured grid.
+
+Results with several load cases: ``--case NAME`` takes one; without it
+every case is recovered (one solve, the cases' components as columns) and
+written side by side, component ``c`` of case ``k`` as ``k.c``.
 render WORKBOOK [--set name=value ...] [--params file.json] [TITLE] [--pdf] --out DIR
     Execute a workbook with its parameters and write the executed notebook,
     an offline HTML report and <name>.summary.json (toolkit.workbook); with
@@ -117,11 +121,35 @@ def _progress(args, stages):
     return _Progress(on, stages)
 
 
+def _all_cases(cases):
+    """One field holding every load case side by side: component ``c`` of
+    case ``k`` becomes ``k.c`` (e.g. ``pull.sxx``).  Recovery is linear and
+    per component, so recovering it recovers each case."""
+    import numpy as np
+
+    from toolkit.core.fields import GaussField
+
+    fields = [f for _, f in cases.items()]
+    values = {b: np.concatenate([f.values[b] for f in fields], axis=-1) for b in fields[0].values}
+    comps = [f"{k}.{c}" for k in cases.names for c in cases.components]
+    return GaussField(cases.mesh, values, comps, points=cases.points, name=cases.name)
+
+
 def _read(args, prog):
-    from toolkit.io import read_results
+    from toolkit.errors import InputError
+    from toolkit.io import read_cases
 
     prog.start("read")
-    mesh, field = read_results(args.results)
+    mesh, cases = read_cases(args.results)
+    if args.case is not None:
+        if args.case not in cases:
+            raise InputError(f"--case {args.case!r}: {args.results} has no such load case; its cases are "
+                             f"{', '.join(map(repr, cases.names))}")
+        field = cases[args.case]
+    elif len(cases) == 1:
+        field = cases[cases.names[0]]
+    else:
+        field = _all_cases(cases)
     npts = sum(v.shape[0] * v.shape[1] for v in field.values.values())
     prog.finish(f"{mesh.nnodes} nodes, {mesh.ncells} elements, {npts} integration points, "
                 f"components {','.join(field.components)}")
@@ -264,6 +292,9 @@ def _common(p, methods):
                    + ("; none: no nodal field" if "none" in methods else "") + " (default l2)")
     p.add_argument("--across-regions", action="store_true",
                    help="smooth across region boundaries (default: one value per region at shared nodes)")
+    p.add_argument("--case", metavar="NAME",
+                   help="the load case to take from results with several (default: all of them, each "
+                        "component written as <case>.<component>, e.g. pull.sxx)")
     p.add_argument("--progress", choices=("auto", "on", "off"), default="auto",
                    help=f"stage lines on stderr (auto: for inputs above {LARGE_INPUT_BYTES // 1_000_000} MB)")
 
