@@ -30,7 +30,9 @@ demo [--out reports] [--recovery-only]
 Exit codes: 0 done (a FAIL in a check is still a written report); 2 bad
 input (a :class:`toolkit.errors.StresspathError` or an ``OSError``: one line
 ``error: <reason>`` on stderr, no output file written or changed; an output
-that is one of the inputs is bad input); 1 a workbook cell failed (one line;
+that is one of the inputs is bad input, and so is a workbook cell that stops
+on the toolkit's own ``InputError`` or ``ParameterError``, e.g. a parameter
+checked against the data it names); 1 a workbook cell failed otherwise (one line;
 ``<name>.failed.ipynb`` holds the traceback, an earlier report is left as it
 was), or an internal error: anything else is a bug in the toolkit, shown with
 its traceback and a request to report it; 130 interrupted (Ctrl-C or
@@ -418,7 +420,7 @@ def _run(args) -> int:
         return int(args.func(args) or 0)
     except WorkbookExecutionError as e:          # a cell failed: the executed notebook shows where
         print(f"error: {_one_line(e)}", file=sys.stderr)
-        return 1
+        return 2 if e.bad_input else 1           # a cell stopped on the toolkit's own input error
     except (StresspathError, OSError) as e:
         print(f"error: {_one_line(e)}", file=sys.stderr)
         return 2
