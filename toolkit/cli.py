@@ -32,7 +32,7 @@ input (a :class:`toolkit.errors.StresspathError` or an ``OSError``: one line
 ``error: <reason>`` on stderr, no output file written or changed; an output
 that is one of the inputs is bad input, and so is a workbook cell that stops
 on the toolkit's own ``InputError`` or ``ParameterError``, e.g. a parameter
-checked against the data it names); 1 a workbook cell failed otherwise (one line;
+checked against the data it names: its ``<name>.failed.ipynb`` is written); 1 a workbook cell failed otherwise (one line;
 ``<name>.failed.ipynb`` holds the traceback, an earlier report is left as it
 was), or an internal error: anything else is a bug in the toolkit, shown with
 its traceback and a request to report it; 130 interrupted (Ctrl-C or
