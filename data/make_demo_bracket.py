@@ -11,13 +11,24 @@ the region boundary lies where the description puts it, at the workbook's
 toe point, and not at the nearest uniform grid line (98.33 mm); that grid
 line is held straight through the depth while the lattice is smoothed.
 
-Values (MPa) at the 3x3 Gauss points: the Kirsch (1898) field of a circular
-hole of the notch radius centred on the notch, under a remote tension of
-80 MPa along x (peak 3 x 80 = 240 MPa at the notch root).  That field is not
-an exact solution for this shape (the flat edges are not traction-free); it
-only gives smooth, realistic-looking raw data.  To each element is added a
-seeded random linear field (element-wise jumps, like the discretisation error
-of a displacement solution).  Values are rounded to 0.001 MPa.
+Two load cases, values (MPa) at the 3x3 Gauss points, written with a
+``case`` column in ``gauss.csv`` and ``"cases": ["pull", "shear"]`` in
+``about.json``:
+
+* ``pull``: the Kirsch (1898) field of a circular hole of the notch radius
+  centred on the notch, under a remote tension of 80 MPa along x (peak
+  3 x 80 = 240 MPa at the notch root).
+* ``shear``: the Kirsch field of the same hole under a remote in-plane shear
+  of 30 MPa, built by superposition as the biaxial state sigma1 = +30 MPa
+  along 45 degrees and sigma2 = -30 MPa along 135 degrees (closed form; peak
+  |hoop stress| 4 x 30 = 120 MPa on the hole).
+
+Neither field is an exact solution for this shape (the flat edges are not
+traction-free); they only give smooth, realistic-looking raw data.  To each
+element of each case is added a seeded random linear field (element-wise
+jumps, like the discretisation error of a displacement solution; its own
+seed per case).  Values are rounded to 0.001 MPa.  The ``pull`` values are
+those the folder held when it had that one case only.
 
 Ids are not positions: node ids run 1001, 1004, 1007, ... in a shuffled file
 order, element ids start at 5001.
@@ -31,6 +42,7 @@ from pathlib import Path
 
 import numpy as np
 
+from toolkit.core.cases import LoadCases
 from toolkit.core.fields import GaussField
 from toolkit.io import write_results
 from toolkit.core.mesh import Mesh
@@ -38,6 +50,7 @@ from toolkit.core.mesh import Mesh
 L, H, R, XC = 120.0, 40.0, 8.0, 60.0
 LUG_X = 100.0
 SIGMA0 = 80.0
+TAU0 = 30.0
 SEED = 20240611
 
 
@@ -139,32 +152,58 @@ def kirsch(x, y, a=R, s0=SIGMA0, xc=XC, yc=H):
     return np.stack([sxx, syy, sxy], axis=-1)
 
 
-def bracket_field(mesh):
-    rng = np.random.default_rng(SEED + 1)
+def kirsch_along(x, y, s0, angle, a=R, xc=XC, yc=H):
+    """Kirsch stresses (sxx, syy, sxy) under a remote tension ``s0`` along
+    the direction at ``angle`` (radians from x): :func:`kirsch` in the frame
+    of the load, rotated back, ``sigma = Q sigma' Q^T``."""
+    c, s = np.cos(angle), np.sin(angle)
+    dx, dy = x - xc, y - yc
+    p = kirsch(c * dx + s * dy, -s * dx + c * dy, a=a, s0=s0, xc=0.0, yc=0.0)
+    sx, sy, sxy = p[..., 0], p[..., 1], p[..., 2]
+    return np.stack([c * c * sx + s * s * sy - 2 * s * c * sxy,
+                     s * s * sx + c * c * sy + 2 * s * c * sxy,
+                     s * c * (sx - sy) + (c * c - s * s) * sxy], axis=-1)
+
+
+def kirsch_shear(x, y, tau=TAU0):
+    """Kirsch field under a remote in-plane shear ``tau`` (sxy = tau far
+    away): the principal states +tau along 45 degrees and -tau along 135
+    degrees superposed (Kirsch 1898; the shear case of e.g. Timoshenko &
+    Goodier, *Theory of Elasticity*, 3rd ed., §35)."""
+    return kirsch_along(x, y, tau, np.pi / 4) + kirsch_along(x, y, -tau, 3 * np.pi / 4)
+
+
+def bracket_field(mesh, smooth_field=kirsch, seed=SEED + 1, jump=4.0, name="stress"):
+    """Values at the 3x3 Gauss points: ``smooth_field(x, y)`` plus seeded
+    element-wise linear jumps of about ``jump`` MPa."""
+    rng = np.random.default_rng(seed)
     g = mesh.geometry("quad8", "full")
     x = g.x_cqi                                            # (c, 9, 2)
-    smooth = kirsch(x[..., 0], x[..., 1])                  # (c, 9, 3)
+    smooth = smooth_field(x[..., 0], x[..., 1])            # (c, 9, 3)
     xi = mesh.block("quad8").element.rule("full").points   # (9, 2)
     size = np.sqrt(mesh.volumes())                          # element size
-    scale = 4.0 * (size / size.mean())[:, None]            # MPa, larger jumps in larger elements
+    scale = jump * (size / size.mean())[:, None]           # MPa, larger jumps in larger elements
     a = rng.normal(0, 1, (mesh.ncells, 3, 3))               # per element: constant, d/dxi, d/deta per component
     jump = (a[:, None, 0, :] + a[:, None, 1, :] * xi[None, :, 0, None] + a[:, None, 2, :] * xi[None, :, 1, None])
     values = np.round(smooth + scale[:, :, None] * jump, 3)
-    return GaussField(mesh, {"quad8": values}, ("sxx", "syy", "sxy"), name="stress")
+    return GaussField(mesh, {"quad8": values}, ("sxx", "syy", "sxy"), name=name)
 
 
 def main(out=Path(__file__).resolve().parent / "demo_bracket"):
     mesh = bracket_mesh()
-    field = bracket_field(mesh)
-    write_results(out, mesh, field, coordinates=True,
+    cases = LoadCases({"pull": bracket_field(mesh, name="pull"),
+                       "shear": bracket_field(mesh, kirsch_shear, seed=SEED + 2, jump=2.0, name="shear")},
+                      name="stress")
+    write_results(out, mesh, cases, coordinates=True,
                   about={"units": {"length": "mm", "stress": "MPa"},
                          "description": "Invented demo: flat bracket bar 120 x 40 mm with a semicircular notch "
                                         "(radius 8 mm) in the upper edge at x = 60 mm, region 2 = lug at x > 100 mm; "
-                                        "plane stress values at the 3x3 Gauss points of 320 quad8 elements, from the "
-                                        "Kirsch field of a hole at the notch under 80 MPa remote tension plus seeded "
-                                        "element-wise jumps (see data/make_demo_bracket.py)."})
+                                        "plane stress values at the 3x3 Gauss points of 320 quad8 elements in two load "
+                                        "cases, from the Kirsch field of a hole at the notch: 'pull' under 80 MPa "
+                                        "remote tension along x, 'shear' under 30 MPa remote in-plane shear; each "
+                                        "with seeded element-wise jumps (see data/make_demo_bracket.py)."})
     size = sum(p.stat().st_size for p in Path(out).iterdir())
-    print(f"{mesh}; {field}; wrote {out} ({size / 1000:.0f} kB)")
+    print(f"{mesh}; {cases}; wrote {out} ({size / 1000:.0f} kB)")
 
 
 if __name__ == "__main__":

@@ -101,3 +101,15 @@ def skfem_l2_solve(basis, F_cqa) -> np.ndarray:
     rhs = skfem.LinearForm(lambda v, w: w["f"] * v)
     B = np.column_stack([skfem.asm(rhs, basis, f=F_cqa[..., a]) for a in range(F_cqa.shape[-1])])
     return spsolve(M, B)
+
+
+DEMO_BRACKET = __import__("pathlib").Path(__file__).resolve().parents[1] / "data" / "demo_bracket"
+
+
+def demo_bracket(case="pull"):
+    """(mesh, GaussField) of one load case of the shipped demo folder
+    ``data/demo_bracket`` (cases ``pull`` and ``shear``)."""
+    from toolkit.io import read_cases
+
+    mesh, cases = read_cases(DEMO_BRACKET)
+    return mesh, cases[case]

@@ -13,6 +13,7 @@ import pytest
 from toolkit import average_nodal, project_l2
 from toolkit.cli import build_parser, main
 from toolkit.io import read_results
+from helpers import demo_bracket
 from toolkit.recovery.spr import recover_spr
 
 DEMO = Path(__file__).resolve().parents[1] / "data" / "demo_bracket"
@@ -20,7 +21,7 @@ DEMO = Path(__file__).resolve().parents[1] / "data" / "demo_bracket"
 
 @pytest.fixture(scope="module")
 def demo():
-    return read_results(DEMO)
+    return demo_bracket("pull")
 
 
 def _read_nodal(path):
@@ -33,7 +34,8 @@ def _read_nodal(path):
 def test_recover_writes_the_projected_field(tmp_path, demo, capsys, method, across):
     mesh, field = demo
     out = tmp_path / "nodal.csv"
-    argv = ["recover", str(DEMO), "--method", method, "--out", str(out)] + (["--across-regions"] if across else [])
+    argv = (["recover", str(DEMO), "--case", "pull", "--method", method, "--out", str(out)]
+            + (["--across-regions"] if across else []))
     assert main(argv) == 0
     assert capsys.readouterr().err == ""                # small input: no progress lines
     header, a = _read_nodal(out)
@@ -49,6 +51,35 @@ def test_recover_writes_the_projected_field(tmp_path, demo, capsys, method, acro
         assert set(a[:, 1]) == {-1} and len(a) == mesh.nnodes
     else:
         assert set(a[:, 1]) == {1, 2} and len(a) > mesh.nnodes       # nodes on the lug boundary twice
+
+
+def test_recover_without_case_writes_every_load_case(tmp_path, demo):
+    """The demo folder holds the load cases pull and shear: without --case
+    both are recovered (their components as columns of one solve) and
+    written side by side as <case>.<component>; each equals the case
+    recovered alone (projection is linear and column by column; to the CG
+    tolerance, 1e-10 relative)."""
+    mesh, pull = demo
+    _, shear = demo_bracket("shear")
+    out = tmp_path / "all.csv"
+    assert main(["recover", str(DEMO), "--out", str(out)]) == 0
+    header, a = _read_nodal(out)
+    assert header == ["node", "region", "pull.sxx", "pull.syy", "pull.sxy", "shear.sxx", "shear.syy", "shear.sxy"]
+    for cols, f in ((slice(2, 5), pull), (slice(5, 8), shear)):
+        want = project_l2(f)
+        assert np.array_equal(a[:, 1], want.region)
+        assert np.allclose(a[:, cols], want.values, rtol=0, atol=1e-7 * np.abs(want.values).max())
+    vtu = tmp_path / "all.vtu"
+    assert main(["export-vtu", str(DEMO), "--method", "none", "--out", str(vtu)]) == 0
+    raw = meshio.read(vtu)
+    assert np.array_equal(raw.cell_data["shear.sxy_gp5"][0], shear.values["quad8"][:, 4, 2])
+
+
+def test_unknown_case_exits_2(tmp_path, capsys):
+    assert main(["recover", str(DEMO), "--case", "twist", "--out", str(tmp_path / "x.csv")]) == 2
+    err = capsys.readouterr().err
+    assert err.startswith("error: --case 'twist'") and "'pull', 'shear'" in err and err.count("\n") == 1
+    assert not (tmp_path / "x.csv").exists()
 
 
 def test_recover_reads_npz(tmp_path, demo):
@@ -85,7 +116,7 @@ def _broken(tmp_path, fname, row, col, token):
 
 @pytest.mark.parametrize("command, suffix", [("recover", ".csv"), ("export-vtu", ".vtu")])
 def test_bad_input_exits_2_with_one_line_and_no_file(tmp_path, command, suffix):
-    d = _broken(tmp_path, "gauss.csv", 40, 5, "1.2e")
+    d = _broken(tmp_path, "gauss.csv", 40, 6, "1.2e")          # case,element,point,x,y,sxx,syy,...
     out = tmp_path / f"out{suffix}"
     r = subprocess.run([sys.executable, "-m", "toolkit", command, str(d), "--out", str(out)],
                        capture_output=True, text=True, timeout=120)
@@ -121,14 +152,14 @@ def test_usage_errors_exit_2(capsys):
 def test_export_vtu(tmp_path, demo):
     mesh, field = demo
     out = tmp_path / "m.vtu"
-    assert main(["export-vtu", str(DEMO), "--method", "l2", "--out", str(out)]) == 0
+    assert main(["export-vtu", str(DEMO), "--case", "pull", "--method", "l2", "--out", str(out)]) == 0
     m = meshio.read(out)
     nodal = project_l2(field)
     # split nodes on the region boundary are written once per region
     assert len(m.points) == len(nodal.node) and m.cells[0].type == "quad8"
     assert np.allclose(np.sort(m.point_data["sxx"]), np.sort(nodal.values[:, 0]))
     assert np.allclose(m.cell_data["sxx_gp5"][0], field.values["quad8"][:, 4, 0])
-    assert main(["export-vtu", str(DEMO), "--method", "none", "--out", str(tmp_path / "raw.vtu")]) == 0
+    assert main(["export-vtu", str(DEMO), "--case", "pull", "--method", "none", "--out", str(tmp_path / "raw.vtu")]) == 0
     raw = meshio.read(tmp_path / "raw.vtu")
     assert len(raw.points) == mesh.nnodes and "sxx" not in raw.point_data and "sxx_mean" in raw.cell_data
 
@@ -146,7 +177,7 @@ def test_an_internal_error_is_a_bug_not_bad_input(tmp_path, monkeypatch, capsys)
     def broken(path):
         return np.ones((3, 2)) + np.ones((4, 5))
 
-    monkeypatch.setattr("toolkit.io.read_results", broken)
+    monkeypatch.setattr("toolkit.io.read_cases", broken)
     out = tmp_path / "nodal.csv"
     code = main(["recover", str(DEMO), "--method", "l2", "--out", str(out)])
     err = capsys.readouterr().err

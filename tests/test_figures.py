@@ -50,7 +50,7 @@ from toolkit.report import plots  # noqa: E402
 from toolkit.report.steps import recover_all  # noqa: E402
 from toolkit.report.widgets import plot_path_comparison  # noqa: E402
 
-from helpers import gauss_field_of  # noqa: E402
+from helpers import demo_bracket, gauss_field_of  # noqa: E402
 
 ROOT = Path(__file__).resolve().parents[1]
 RAW_GREY = "0.55"          # colour of the raw curve in plot_path_comparison
@@ -100,7 +100,7 @@ def solved(name):
     """(model or None, GaussField, {method label: NodalField}) as the workbook builds them, once per session."""
     if name not in _CACHE:
         if name == "from_results":
-            mesh, field = tk.read_results(ROOT / "data" / "demo_bracket")
+            mesh, field = demo_bracket("pull")
             recovered = {"L2 projection": tk.project_l2(field), "nodal averaging": tk.average_nodal(field),
                          "patch recovery (SPR)": tk.recover_spr(field)}
             _CACHE[name] = (None, field, recovered)

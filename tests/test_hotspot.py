@@ -274,7 +274,8 @@ def test_demo_bracket_region_2_starts_at_the_toe():
     hot-spot read-out from the toe towards -x stays in region 1 (no crossing warning)."""
     from pathlib import Path
     import toolkit as tk
-    mesh, field = tk.read_results(Path(__file__).resolve().parents[1] / "data" / "demo_bracket")
+    from helpers import demo_bracket
+    mesh, field = demo_bracket("pull")
     b = mesh.blocks[0]
     x = mesh.nodes[b.cells][..., 0]
     assert x[b.regions == 2].min() == pytest.approx(100.0, abs=1e-9)

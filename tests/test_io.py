@@ -14,6 +14,7 @@ from hypothesis import HealthCheck, given, settings, strategies as st
 
 from toolkit import GaussField, project_l2
 from toolkit.core.elements import ELEMENTS
+from helpers import demo_bracket
 from toolkit.io import (FORMAT, VTK_CELL_TYPES, read_about, read_mesh, read_results, write_nodal_csv,
                         write_results, write_vtu)
 from toolkit.core.mesh import Mesh
@@ -612,7 +613,7 @@ def test_vtu_keeps_every_value_of_split_nodes(tmp_path):
 
 
 def test_nodal_csv(tmp_path):
-    mesh, field = read_results(DEMO)
+    mesh, field = demo_bracket("pull")
     nodal = project_l2(field)
     write_nodal_csv(tmp_path / "n.csv", nodal)
     lines = (tmp_path / "n.csv").read_text().splitlines()
@@ -622,7 +623,7 @@ def test_nodal_csv(tmp_path):
 
 
 def test_demo_bracket_folder():
-    mesh, field = read_results(DEMO)
+    mesh, field = demo_bracket("pull")
     assert mesh.ncells == 320 and mesh.blocks[0].name == "quad8" and list(mesh.regions) == [1, 2]
     assert read_about(DEMO)["units"] == {"length": "mm", "stress": "MPa"}
     assert sum(p.stat().st_size for p in DEMO.iterdir()) < 500_000

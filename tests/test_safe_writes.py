@@ -215,7 +215,9 @@ def test_output_over_a_file_of_the_input_folder_is_refused(results_copy, capsys,
 def test_output_over_the_input_npz_or_a_link_to_it_is_refused(tmp_path, command):
     from toolkit.io import read_results, write_results
 
-    mesh, field = read_results(DEMO)
+    from helpers import demo_bracket
+
+    mesh, field = demo_bracket("pull")
     npz = tmp_path / "m.npz"
     write_results(npz, mesh, field)
     data = npz.read_bytes()

@@ -2,12 +2,16 @@
 
 Commands
 --------
-recover RESULTS --method l2|lumped|average|spr [--across-regions] --out nodal.csv
+recover RESULTS --method l2|lumped|average|spr [--across-regions] [--case NAME] --out nodal.csv
     Read a result folder or ``.npz`` file, recover a nodal field, write it as
     CSV with columns ``node,region,<components>``.
-export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] --out model.vtu
+export-vtu RESULTS --method l2|lumped|average|spr|none [--across-regions] [--case NAME] --out model.vtu
     Write the mesh, the recovered nodal field (point data) and the raw
     integration-point values (cell data) as a VTK XML unstructured grid.
+
+Results with several load cases: ``--case NAME`` takes one; without it
+every case is recovered (one solve, the cases' components as columns) and
+written side by side, component ``c`` of case ``k`` as ``k.c``.
 render WORKBOOK [--set name=value ...] [--params file.json] [TITLE] [--pdf] --out DIR
     Execute a workbook with its parameters and write the executed notebook,
     an offline HTML report and <name>.summary.json (toolkit.workbook); with
@@ -34,7 +38,9 @@ demo [--out reports] [--recovery-only]
 Exit codes: 0 done (a FAIL in a check is still a written report); 2 bad
 input (a :class:`toolkit.errors.StresspathError` or an ``OSError``: one line
 ``error: <reason>`` on stderr, no output file written or changed; an output
-that is one of the inputs is bad input); 1 a workbook cell failed (one line;
+that is one of the inputs is bad input, and so is a workbook cell that stops
+on the toolkit's own ``InputError`` or ``ParameterError``, e.g. a parameter
+checked against the data it names: its ``<name>.failed.ipynb`` is written); 1 a workbook cell failed otherwise (one line;
 ``<name>.failed.ipynb`` holds the traceback, an earlier report is left as it
 was), or an internal error: anything else is a bug in the toolkit, shown with
 its traceback and a request to report it; 130 interrupted (Ctrl-C or
@@ -125,11 +131,35 @@ def _progress(args, stages):
     return _Progress(on, stages)
 
 
+def _all_cases(cases):
+    """One field holding every load case side by side: component ``c`` of
+    case ``k`` becomes ``k.c`` (e.g. ``pull.sxx``).  Recovery is linear and
+    per component, so recovering it recovers each case."""
+    import numpy as np
+
+    from toolkit.core.fields import GaussField
+
+    fields = [f for _, f in cases.items()]
+    values = {b: np.concatenate([f.values[b] for f in fields], axis=-1) for b in fields[0].values}
+    comps = [f"{k}.{c}" for k in cases.names for c in cases.components]
+    return GaussField(cases.mesh, values, comps, points=cases.points, name=cases.name)
+
+
 def _read(args, prog):
-    from toolkit.io import read_results
+    from toolkit.errors import InputError
+    from toolkit.io import read_cases
 
     prog.start("read")
-    mesh, field = read_results(args.results)
+    mesh, cases = read_cases(args.results)
+    if args.case is not None:
+        if args.case not in cases:
+            raise InputError(f"--case {args.case!r}: {args.results} has no such load case; its cases are "
+                             f"{', '.join(map(repr, cases.names))}")
+        field = cases[args.case]
+    elif len(cases) == 1:
+        field = cases[cases.names[0]]
+    else:
+        field = _all_cases(cases)
     npts = sum(v.shape[0] * v.shape[1] for v in field.values.values())
     prog.finish(f"{mesh.nnodes} nodes, {mesh.ncells} elements, {npts} integration points, "
                 f"components {','.join(field.components)}")
@@ -353,6 +383,9 @@ def _common(p, methods):
                    + ("; none: no nodal field" if "none" in methods else "") + " (default l2)")
     p.add_argument("--across-regions", action="store_true",
                    help="smooth across region boundaries (default: one value per region at shared nodes)")
+    p.add_argument("--case", metavar="NAME",
+                   help="the load case to take from results with several (default: all of them, each "
+                        "component written as <case>.<component>, e.g. pull.sxx)")
     p.add_argument("--progress", choices=("auto", "on", "off"), default="auto",
                    help=f"stage lines on stderr (auto: for inputs above {LARGE_INPUT_BYTES // 1_000_000} MB)")
 
@@ -500,7 +533,7 @@ def _run(args) -> int:
         return int(args.func(args) or 0)
     except WorkbookExecutionError as e:          # a cell failed: the executed notebook shows where
         print(f"error: {_one_line(e)}", file=sys.stderr)
-        return 1
+        return 2 if e.bad_input else 1           # a cell stopped on the toolkit's own input error
     except (StresspathError, OSError) as e:
         print(f"error: {_one_line(e)}", file=sys.stderr)
         return 2

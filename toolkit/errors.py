@@ -32,8 +32,12 @@ class ParameterError(WorkbookError):
 
 class WorkbookExecutionError(WorkbookError):
     """A cell failed while executing; ``notebook`` is the executed notebook
-    written (with the traceback).  The command line exits with code 1."""
+    written (with the traceback).  The command line exits with code 1, or 2
+    when ``bad_input`` is set: the cell stopped on one of the toolkit's own
+    input errors (:class:`InputError`, :class:`ParameterError`), e.g. a
+    workbook checking a parameter against the data it reads."""
 
-    def __init__(self, message, notebook=None):
+    def __init__(self, message, notebook=None, bad_input=False):
         super().__init__(message)
         self.notebook = notebook
+        self.bad_input = bool(bad_input)

@@ -325,7 +325,9 @@ def _execute(run: _Run, failed_path, timeout, progress) -> int:
             reason = "the kernel died"
         raise WorkbookExecutionError(f"{run.label} failed in {where}: {reason}; the executed notebook with the "
                                      f"traceback is {failed_path} (an earlier report is left as it was)",
-                                     notebook=failed_path) from None
+                                     notebook=failed_path,
+                                     bad_input=isinstance(e, CellExecutionError)
+                                     and e.ename in ("InputError", "ParameterError")) from None
     finally:
         bar.close()
         _stop_kernel(client)
