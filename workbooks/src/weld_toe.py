@@ -77,7 +77,7 @@ if abs(spec[:, 1].sum() - 1.0) > 1e-9:
     raise ValueError(f"spectrum: the cycle fractions add up to {spec[:, 1].sum():.6g}, not 1")
 report.Table([[f, c, c * cycles] for f, c in spec], ["fraction of the range", "fraction of cycles", "cycles"],
              title="Stress-range histogram (applied to the hot-spot stress range)" if not load_history else
-             "Stress-range histogram: not used, the load history given in load_history replaces it and cycles")
+             "Stress-range histogram: not used (a load history is given; spectrum and cycles are ignored)")
 
 # %% [markdown]
 # ## The model
@@ -313,7 +313,8 @@ if history is not None:
     for i, (name, c) in enumerate(counted.items()):
         hist = c.histogram(edges)
         ax.bar(edges[:-1] + (i + 0.5) * width, hist.counts, width=width, align="edge", label=f"{name} toe")
-    ax.set(xlabel="hot-spot stress range (MPa)", ylabel="cycles per pass of the history",
+    ax.set_yscale("log")
+    ax.set(xlabel="hot-spot stress range (MPa)", ylabel="cycles per pass of the history (log scale)",
            title="rainflow histogram at each toe (ASTM E1049-85)")
     ax.grid(True, alpha=0.3)
     plots.legend_outside(ax)
