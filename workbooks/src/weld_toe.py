@@ -305,7 +305,9 @@ else:
     print('no load history given (load_history = ""): the ranges, spectrum and cycles parameters are used')
 
 # %%
-if history is not None:
+if history is not None and not any(len(c) for c in counted.values()):
+    print("the hot-spot history has no cycles at any toe (constant): no damage")
+elif history is not None:
     top = max(float(c.ranges.max()) for c in counted.values() if len(c))
     edges = np.linspace(0.0, top, 11)
     fig, ax = plt.subplots(figsize=(10, 3.5), constrained_layout=True)
