@@ -335,7 +335,7 @@ else:
 
 # %% [markdown]
 # ## Mesh adequacy
-# Zienkiewicz–Zhu indicator, and the hot-spot stress range (type a linear, L2) at the governing toe, at the toe element size doubled
+# Zienkiewicz–Zhu indicator, and the hot-spot stress (type a linear, L2) at the toe element size doubled
 # and doubled again, with Richardson extrapolation and Roache's GCI (Celik et al. 2008).
 
 # %%
