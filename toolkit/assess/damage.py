@@ -14,6 +14,7 @@ import numpy as np
 from toolkit.assess.checks import IIW_2016, CheckResult, SNCurve, Working, miner_damage
 from toolkit.assess.counting import Cycles, RangeHistogram
 from toolkit.core.arrays import readonly
+from toolkit.core.numbers import positive_number as _positive
 from toolkit.errors import InputError
 
 __all__ = ["CycleDamage", "cycle_damage", "equivalent_range"]
@@ -30,14 +31,6 @@ def _counted(counted, who):
                      f"(Cycles.histogram), got {type(counted).__name__}")
 
 
-def _positive(name, v):
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a positive number, got {v!r}") from None
-    if not (math.isfinite(f) and f > 0):
-        raise InputError(f"{name} must be a positive number, got {v!r}")
-    return f
 
 
 def equivalent_range(counted, m=3.0, n_ref=2e6) -> float:

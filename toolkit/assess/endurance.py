@@ -22,6 +22,7 @@ from statistics import NormalDist
 import numpy as np
 
 from toolkit.assess.checks import CheckResult, Working
+from toolkit.core.numbers import finite_number, positive_number
 from toolkit.errors import InputError
 
 __all__ = ["SHIGLEY", "SURFACE_FINISHES", "LOAD_FACTORS", "MEAN_STRESS_CRITERIA", "endurance_limit_estimate",
@@ -49,25 +50,6 @@ MEAN_STRESS_CRITERIA = ("goodman", "gerber", "asme-elliptic", "soderberg")
 _SUT_KNEE = 1400.0   # MPa: above it the endurance-limit estimate stays at 700 MPa
 
 
-def _positive(value, name):
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a positive number, got {value!r}") from None
-    if not (math.isfinite(v) and v > 0):
-        raise InputError(f"{name} must be a positive finite number, got {value!r}")
-    return v
-
-
-def _finite(value, name):
-    try:
-        v = float(value)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a finite number, got {value!r}") from None
-    if not math.isfinite(v):
-        raise InputError(f"{name} must be a finite number, got {value!r}")
-    return v
-
 
 def _choice(value, name, choices):
     key = str(value).lower().replace("_", "-").replace(" ", "-")
@@ -85,7 +67,7 @@ def endurance_limit_estimate(tensile_strength) -> float:
     ``S'e = 0.5 Sut`` for ``Sut <= 1400 MPa``, ``S'e = 700 MPa`` above
     (Shigley 9th ed., §6-7, Eq. (6-8); equation number from memory).  MPa.
     """
-    sut = _positive(tensile_strength, "tensile_strength")
+    sut = positive_number("tensile_strength", tensile_strength)
     return 0.5 * sut if sut <= _SUT_KNEE else 700.0
 
 
@@ -96,7 +78,7 @@ def surface_factor(tensile_strength, finish) -> float:
     "as-forged"; ``a`` and ``b`` from :data:`SURFACE_FINISHES` (Shigley 9th
     ed., Eq. (6-19) and Table 6-2; from memory).
     """
-    sut = _positive(tensile_strength, "tensile_strength")
+    sut = positive_number("tensile_strength", tensile_strength)
     a, b = SURFACE_FINISHES[_choice(finish, "finish", tuple(SURFACE_FINISHES))]
     return a * sut ** b
 
@@ -118,10 +100,10 @@ def equivalent_diameter(section, diameter=None, height=None, width=None) -> floa
     """
     kind = _choice(section, "section", ("round-rotating", "round-nonrotating", "rectangle"))
     if kind == "rectangle":
-        h = _positive(height, "height")
-        b = _positive(width, "width")
+        h = positive_number("height", height)
+        b = positive_number("width", width)
         return 0.808 * math.sqrt(h * b)
-    d = _positive(diameter, "diameter")
+    d = positive_number("diameter", diameter)
     return d if kind == "round-rotating" else 0.370 * d
 
 
@@ -138,7 +120,7 @@ def size_factor(diameter, load="bending") -> float:
     kind = _choice(load, "load", tuple(LOAD_FACTORS))
     if kind == "axial":
         return 1.0
-    d = _positive(diameter, "diameter")
+    d = positive_number("diameter", diameter)
     if not 2.79 <= d <= 254.0:
         raise InputError(f"diameter {d:g} mm lies outside 2.79..254 mm, the range of the size-factor fit")
     return (d / 7.62) ** -0.107 if d <= 51.0 else 1.51 * d ** -0.157
@@ -157,7 +139,7 @@ def reliability_factor(reliability) -> float:
     mean (Shigley 9th ed., §6-9, Eq. (6-29) and Table 6-5; from memory).
     ``reliability`` in [0.5, 1): 0.5 gives 1, 0.99 gives 0.814.
     """
-    r = _finite(reliability, "reliability")
+    r = finite_number("reliability", reliability)
     if not 0.5 <= r < 1.0:
         raise InputError(f"reliability must lie in [0.5, 1), got {reliability!r}")
     return 1.0 - 0.08 * NormalDist().inv_cdf(r)
@@ -218,18 +200,18 @@ def endurance_limit(tensile_strength, finish, load="bending", diameter=None, rel
     Source: Shigley 9th ed., §6-9, Marin equation (6-18) (from memory).
     """
     kind = _choice(load, "load", tuple(LOAD_FACTORS))
-    kd = _positive(temperature_factor, "temperature_factor")
-    kf = _positive(misc_factor, "misc_factor")
+    kd = positive_number("temperature_factor", temperature_factor)
+    kf = positive_number("misc_factor", misc_factor)
     for v, name in ((kd, "temperature_factor"), (kf, "misc_factor")):
         if v > 1.5:
             raise InputError(f"{name} must lie in (0, 1.5], got {v:g}")
-    sut = _positive(tensile_strength, "tensile_strength")
+    sut = positive_number("tensile_strength", tensile_strength)
     src = {
         "S'e": "0.5 Sut for Sut ≤ 1400 MPa, else 700 MPa (Shigley 9th ed., Eq. (6-8); from memory)",
         "ka": f"surface, {_choice(finish, 'finish', tuple(SURFACE_FINISHES))}: a Sut^b (Shigley 9th ed., Table 6-2; "
               "from memory)",
         "kb": ("size: 1 for axial loading" if kind == "axial" else
-               f"size: (d/7.62)^-0.107 or 1.51 d^-0.157, d = {_positive(diameter, 'diameter'):.4g} mm "
+               f"size: (d/7.62)^-0.107 or 1.51 d^-0.157, d = {positive_number('diameter', diameter):.4g} mm "
                "(Shigley 9th ed., Eq. (6-20); from memory)"),
         "kc": f"load, {kind} (Shigley 9th ed., Eq. (6-26); from memory)",
         "kd": "temperature, as given",
@@ -254,13 +236,13 @@ _CRITERION_TEXT = {
 
 def _strengths(criterion, endurance, tensile_strength, yield_strength):
     crit = _choice(criterion, "criterion", MEAN_STRESS_CRITERIA)
-    se = _positive(endurance, "endurance")
-    sut = _positive(tensile_strength, "tensile_strength")
+    se = positive_number("endurance", endurance)
+    sut = positive_number("tensile_strength", tensile_strength)
     sy = None
     if crit in ("asme-elliptic", "soderberg") or yield_strength is not None:
         if yield_strength is None:
             raise InputError(f"yield_strength is needed for the {crit} criterion")
-        sy = _positive(yield_strength, "yield_strength")
+        sy = positive_number("yield_strength", yield_strength)
         if sy > sut:
             raise InputError(f"yield_strength {sy:g} MPa exceeds tensile_strength {sut:g} MPa")
     return crit, se, sut, sy
@@ -311,8 +293,8 @@ def fatigue_safety_factor(amplitude, mean_stress, endurance, tensile_strength, y
     in MPa; ``amplitude`` > 0.
     """
     crit, se, sut, sy = _strengths(criterion, endurance, tensile_strength, yield_strength)
-    sa = _positive(amplitude, "amplitude")
-    sm = max(_finite(mean_stress, "mean_stress"), 0.0)
+    sa = positive_number("amplitude", amplitude)
+    sm = max(finite_number("mean_stress", mean_stress), 0.0)
     if sm == 0.0:
         return se / sa
     if crit == "goodman":
@@ -333,11 +315,11 @@ def langer_safety_factor(amplitude, mean_stress, yield_strength) -> float:
     σm`` for a compressive mean), against the yield strength (Shigley 9th ed.,
     §6-12, Eq. (6-49); from memory).  MPa.
     """
-    sa = _finite(amplitude, "amplitude")
+    sa = finite_number("amplitude", amplitude)
     if sa < 0:
         raise InputError(f"amplitude must be >= 0, got {amplitude!r}")
-    sm = _finite(mean_stress, "mean_stress")
-    sy = _positive(yield_strength, "yield_strength")
+    sm = finite_number("mean_stress", mean_stress)
+    sy = positive_number("yield_strength", yield_strength)
     peak = sa + abs(sm)
     if peak <= 0:
         raise InputError("amplitude and mean_stress are both zero: there is no stress to check")
@@ -348,14 +330,14 @@ def langer_safety_factor(amplitude, mean_stress, yield_strength) -> float:
 # Checks
 # ---------------------------------------------------------------------------
 def _local(amplitude, mean_stress, notch_factor):
-    kf = _positive(notch_factor, "notch_factor")
+    kf = positive_number("notch_factor", notch_factor)
     if kf < 1.0:
         raise InputError(f"notch_factor must be >= 1 (Kf = 1 + q (Kt − 1)), got {kf:g}")
-    sa = _finite(amplitude, "amplitude")
+    sa = finite_number("amplitude", amplitude)
     if sa <= 0:
         raise InputError(f"amplitude must be > 0 (with no alternating stress there is no fatigue check), got "
                          f"{amplitude!r}")
-    sm = _finite(mean_stress, "mean_stress")
+    sm = finite_number("mean_stress", mean_stress)
     return kf, sa, sm
 
 
@@ -383,10 +365,10 @@ def endurance_check(amplitude, mean_stress, endurance, tensile_strength, yield_s
     safety_factor : the required fatigue factor of safety n_req >= 1.
     """
     se_rec = endurance if isinstance(endurance, EnduranceLimit) else None
-    se = se_rec.value if se_rec is not None else _positive(endurance, "endurance")
+    se = se_rec.value if se_rec is not None else positive_number("endurance", endurance)
     crit, se, sut, sy = _strengths(criterion, se, tensile_strength, yield_strength)
     kf, sa_nom, sm_nom = _local(amplitude, mean_stress, notch_factor)
-    nreq = _positive(safety_factor, "safety_factor")
+    nreq = positive_number("safety_factor", safety_factor)
     if nreq < 1.0:
         raise InputError(f"safety_factor must be >= 1, got {nreq:g}")
     sa, sm = kf * sa_nom, kf * sm_nom
@@ -445,8 +427,8 @@ def first_cycle_yield_check(amplitude, mean_stress, yield_strength, notch_factor
     (Shigley 9th ed., §6-12; from memory).  Inputs as :func:`endurance_check`.
     """
     kf, sa_nom, sm_nom = _local(amplitude, mean_stress, notch_factor)
-    sy = _positive(yield_strength, "yield_strength")
-    nreq = _positive(safety_factor, "safety_factor")
+    sy = positive_number("yield_strength", yield_strength)
+    nreq = positive_number("safety_factor", safety_factor)
     if nreq < 1.0:
         raise InputError(f"safety_factor must be >= 1, got {nreq:g}")
     sa, sm = kf * sa_nom, kf * sm_nom

@@ -3,9 +3,9 @@ value ``(Δσ/Δσ_R)² + (Δτ/Δτ_R)² <= CV`` (1.0 proportional, 0.5
 non-proportional loading) as a check with its working."""
 from __future__ import annotations
 
-import math
 
 from toolkit.assess.checks import CheckResult, SNCurve, Working
+from toolkit.core.numbers import nonnegative_number, positive_number as _positive
 from toolkit.errors import InputError
 
 __all__ = ["COMPARISON_VALUES", "IIW_MULTIAXIAL", "multiaxial_check"]
@@ -18,24 +18,6 @@ IIW_MULTIAXIAL = ("IIW recommendations (Hobbacher 2016, XIII-2460-13), §5.3.2 c
 COMPARISON_VALUES = {"proportional": 1.0, "non-proportional": 0.5}
 
 
-def _range(name, v):
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a number, got {v!r}") from None
-    if not (math.isfinite(f) and f >= 0):
-        raise InputError(f"{name} must be finite and >= 0 (a stress range is a magnitude), got {v!r}")
-    return f
-
-
-def _positive(name, v):
-    try:
-        f = float(v)
-    except (TypeError, ValueError):
-        raise InputError(f"{name} must be a positive number, got {v!r}") from None
-    if not (math.isfinite(f) and f > 0):
-        raise InputError(f"{name} must be a positive number, got {v!r}")
-    return f
 
 
 def _resistance(name, v, stress, cycles):
@@ -79,8 +61,8 @@ def multiaxial_check(normal_range, shear_range, normal_resistance, shear_resista
     >>> round(r.value, 6), r.limit, r.status      # 0.6^2 + 0.375^2 = 0.500625
     (0.500625, 0.5, 'FAIL')
     """
-    ds = _range("normal_range", normal_range)
-    dt = _range("shear_range", shear_range)
+    ds = nonnegative_number("normal_range", normal_range, "a stress range is a magnitude")
+    dt = nonnegative_number("shear_range", shear_range, "a stress range is a magnitude")
     rs, rs_how = _resistance("normal_resistance", normal_resistance, "normal", cycles)
     rt, rt_how = _resistance("shear_resistance", shear_resistance, "shear", cycles)
     if cycles is not None and not isinstance(normal_resistance, (SNCurve, dict)) \
