@@ -12,7 +12,8 @@ from toolkit.assess.convergence import grid_convergence
 from toolkit.recovery.methods import METHODS, recover
 from toolkit.report.tables import Table, headless
 
-__all__ = ["METHODS", "recover_all", "study_sizes", "convergence_study", "convergence_lines", "check_table"]
+__all__ = ["METHODS", "recover_all", "study_sizes", "finer_study_note", "convergence_study", "convergence_lines",
+           "check_table"]
 
 
 def recover_all(field, methods=("l2", "average", "spr")) -> dict:
@@ -67,6 +68,15 @@ def study_sizes(size, coarsest, ratio=2.0, count=3) -> list[float]:
     top = min(float(size) * ratio ** (count - 1), float(coarsest))
     return [top / ratio ** (count - 1 - i) for i in range(count)]
 
+
+def finer_study_note(sizes, size, coarsest, cap) -> str:
+    """The report's line when :func:`study_sizes` made the study finer than
+    the model (``sizes[0] < size``), else ``""``; ``cap`` names the coarsest
+    size in words (e.g. ``"r/4"``)."""
+    if sizes[0] >= size:
+        return ""
+    return (f"the study uses sizes finer than the model's {size:.4g} mm: 4h would exceed the coarsest size "
+            f"allowed, {coarsest:.4g} mm ({cap})")
 
 def convergence_study(run, sizes, quantity="peak stress", unit="MPa", progress=None):
     """Run ``run(size) -> value`` for each element size (finest first), then

@@ -32,7 +32,8 @@ from toolkit.assess.references import (PLATE_HOLE_KT_RANGE, heywood_kt_net, kirs
                                        plate_hole_kt_reference)
 from toolkit.fem.solver import solve
 from toolkit.core.stress import von_mises
-from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all, study_sizes
+from toolkit.report.steps import (check_table, convergence_lines, convergence_study, finer_study_note, recover_all,
+                                  study_sizes)
 from toolkit.report.widgets import path_panel, plot_path_comparison
 from toolkit.workbook import Summary
 
@@ -201,9 +202,9 @@ values, conv, conv_table = convergence_study(peak_at, sizes, quantity="peak sxx"
 # %%
 display(conv_table)
 print("\n".join(convergence_lines(conv)))
-if sizes[0] < h_edge:
-    print(f"the study uses sizes finer than the model's {h_edge:.4g} mm: 4h would exceed the coarsest size "
-          f"allowed, {h_coarsest:.4g} mm (π a/16)")
+note = finer_study_note(sizes, h_edge, h_coarsest, "π a/16")
+if note:
+    print(note)
 
 # %% [markdown]
 # ## Checks

@@ -34,7 +34,8 @@ from toolkit.assess.references import fatigue_notch_factor, fillet_kt, peterson_
 from toolkit.fem.solver import solve
 from toolkit.core.stress import von_mises
 from toolkit.report.mean_stress import plot_mean_stress_diagram
-from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all, study_sizes
+from toolkit.report.steps import (check_table, convergence_lines, convergence_study, finer_study_note, recover_all,
+                                  study_sizes)
 from toolkit.report.widgets import path_panel, plot_path_comparison
 from toolkit.workbook import Summary
 
@@ -205,9 +206,9 @@ values, conv, conv_table = convergence_study(peak_at, sizes, quantity="peak fill
 # %%
 display(conv_table)
 print("\n".join(convergence_lines(conv)))
-if sizes[0] < h_fillet:
-    print(f"the study uses sizes finer than the model's {h_fillet:.4g} mm: 4h would exceed the coarsest size "
-          f"allowed, {h_coarsest:.4g} mm (r/4)")
+note = finer_study_note(sizes, h_fillet, h_coarsest, "r/4")
+if note:
+    print(note)
 
 # %% [markdown]
 # ## Checks

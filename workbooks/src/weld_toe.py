@@ -33,7 +33,8 @@ from toolkit.assess.checks import SNCurve, fatigue_check, sn_curve, thickness_fa
 from toolkit.fem.models import weld_toe, weld_toe_sizes
 from toolkit.fem.solver import solve
 from toolkit.core.stress import max_abs_principal
-from toolkit.report.steps import check_table, convergence_lines, convergence_study, recover_all, study_sizes
+from toolkit.report.steps import (check_table, convergence_lines, convergence_study, finer_study_note, recover_all,
+                                  study_sizes)
 from toolkit.report.widgets import path_panel, plot_path_comparison
 from toolkit.io import read_load_history
 from toolkit.workbook import Summary, input_path
@@ -367,9 +368,9 @@ values, conv, conv_table = convergence_study(hot_spot_at, sizes, quantity="hot-s
 # %%
 display(conv_table)
 print("\n".join(convergence_lines(conv)))
-if sizes[0] < h_toe:
-    print(f"the study uses sizes finer than the model's {h_toe:.4g} mm: 4h would exceed the coarsest size "
-          f"allowed, {h_coarsest:.4g} mm (min(t, 2 leg)/12)")
+note = finer_study_note(sizes, h_toe, h_coarsest, "min(t, 2 leg)/12")
+if note:
+    print(note)
 
 # %% [markdown]
 # ## Effective notch (optional)

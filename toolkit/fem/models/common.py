@@ -27,6 +27,7 @@ from toolkit.core.mesh import Mesh
 from toolkit.core.grid import rectangle_mesh
 
 __all__ = ["Curve", "line", "arc", "join", "uniform", "graded", "Block", "assemble", "boundary_edges",
+           "scaled_element_size",
            "edges_on", "cell_edges_on", "reflect_permutation", "Model", "QUAD_TYPES"]
 
 QUAD_TYPES = ("quad4", "quad8", "quad9")
@@ -142,6 +143,24 @@ def _respace(u, bounds):
 # ---------------------------------------------------------------------------
 # Blocks
 # ---------------------------------------------------------------------------
+def scaled_element_size(who: str, element_size, default: float) -> float:
+    """The element size a model uses at its feature: ``element_size`` when it
+    is positive (mm), ``default`` (the size scaled to the feature) when it is
+    0.  Anything else (negative, not finite, not a number, a bool) raises an
+    :class:`InputError` naming ``who``."""
+    bad = InputError(f"{who}: element_size must be 0 (the scaled default) or a positive size in mm, "
+                     f"got {element_size!r}")
+    if isinstance(element_size, bool):
+        raise bad
+    try:
+        h = float(element_size)
+    except (TypeError, ValueError):
+        raise bad from None
+    if not (np.isfinite(h) and h >= 0):
+        raise bad
+    return h if h > 0 else float(default)
+
+
 @dataclass(eq=False)
 class Block:
     """A four-sided mapped block.

@@ -25,7 +25,7 @@ from toolkit.errors import InputError
 from toolkit.fem.loads import Traction
 from toolkit.fem.material import Material
 from toolkit.fem.supports import Displacement, Fixed, Roller
-from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line
+from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line, scaled_element_size
 
 __all__ = ["shoulder_fillet", "shoulder_fillet_sizes"]
 
@@ -217,8 +217,5 @@ def shoulder_fillet_sizes(fillet_radius, element_size=0.0) -> tuple[float, float
     r = float(fillet_radius)
     if not (np.isfinite(r) and r > 0):
         raise InputError(f"shoulder_fillet_sizes: fillet_radius must be positive, got {fillet_radius!r}")
-    if isinstance(element_size, bool) or not (np.isfinite(float(element_size)) and float(element_size) >= 0):
-        raise InputError(f"shoulder_fillet_sizes: element_size must be 0 (the scaled default) or a positive size "
-                         f"in mm, got {element_size!r}")
-    h = float(element_size) if element_size > 0 else r / 16
+    h = scaled_element_size("shoulder_fillet_sizes", element_size, r / 16)
     return h, r / 4

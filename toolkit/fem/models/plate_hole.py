@@ -19,7 +19,8 @@ from toolkit.errors import InputError
 from toolkit.fem.loads import Traction
 from toolkit.fem.material import Material
 from toolkit.fem.supports import Roller
-from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, graded, line, uniform
+from toolkit.fem.models.common import (Block, Model, QUAD_TYPES, arc, assemble, graded, line, uniform,
+                                       scaled_element_size)
 
 __all__ = ["plate_with_hole", "plate_with_hole_sizes"]
 
@@ -123,9 +124,6 @@ def plate_with_hole_sizes(hole_diameter, element_size=0.0) -> tuple[float, float
     d = float(hole_diameter)
     if not (np.isfinite(d) and d > 0):
         raise InputError(f"plate_with_hole_sizes: hole_diameter must be positive, got {hole_diameter!r}")
-    if isinstance(element_size, bool) or not (np.isfinite(float(element_size)) and float(element_size) >= 0):
-        raise InputError(f"plate_with_hole_sizes: element_size must be 0 (the scaled default) or a positive size "
-                         f"in mm, got {element_size!r}")
     a = d / 2
-    h = float(element_size) if element_size > 0 else np.pi * a / 64
+    h = scaled_element_size("plate_with_hole_sizes", element_size, np.pi * a / 64)
     return h, np.pi * a / 16

@@ -29,7 +29,8 @@ from toolkit.errors import InputError
 from toolkit.fem.loads import Traction
 from toolkit.fem.material import Material
 from toolkit.fem.supports import Displacement, Roller
-from toolkit.fem.models.common import Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line
+from toolkit.fem.models.common import (Block, Model, QUAD_TYPES, arc, assemble, cell_edges_on, graded, join, line,
+                                       scaled_element_size)
 
 __all__ = ["weld_toe", "weld_toe_sizes"]
 
@@ -266,9 +267,6 @@ def weld_toe_sizes(plate_thickness, weld_leg, element_size=0.0) -> tuple[float, 
     for name, v in (("plate_thickness", t), ("weld_leg", leg)):
         if not (np.isfinite(v) and v > 0):
             raise InputError(f"weld_toe_sizes: {name} must be positive, got {v!r}")
-    if isinstance(element_size, bool) or not (np.isfinite(float(element_size)) and float(element_size) >= 0):
-        raise InputError(f"weld_toe_sizes: element_size must be 0 (the scaled default) or a positive size "
-                         f"in mm, got {element_size!r}")
     ell = min(t, 2 * leg)
-    h = float(element_size) if element_size > 0 else ell / 48
+    h = scaled_element_size("weld_toe_sizes", element_size, ell / 48)
     return h, ell / 12
