@@ -196,7 +196,5 @@ def test_a_wrong_declaration_is_refused():
               reduced_rule_points=1, mass_rule_points=4, edges=quad.edges, vtk_cell_type="quad")
     with pytest.raises(ValueError, match="plot_triangles"):
         ElementType(**kw, plot_triangles=((0, 1, 7),))
-    with pytest.raises(ValueError, match="projection_preconditioner"):
-        ElementType(**kw, projection_preconditioner="multigrid")
     with pytest.raises(TypeError):
         ElementType("q", "quad", quad.nodes, quad.exponents, 4, 4, 1, 4, quad.edges)    # keywords only

@@ -389,16 +389,14 @@ def test_method_registry_runs_each_method_by_name():
         recover(fld, "lumped", lumped=False)
 
 
-@pytest.mark.parametrize("etype, expected", [("quad4", "element"), ("quad8", "jacobi"), ("quad9", "element"),
-                                             ("tri6", "element"), ("hex20", "jacobi"), ("tet10", "element")])
-def test_auto_preconditioner_follows_the_element_declaration(etype, expected):
-    """preconditioner="auto" takes each type's declared choice
-    (ElementType.projection_preconditioner; measured: the element
-    preconditioner halves quad8's iterations but doubles the products)."""
+@pytest.mark.parametrize("etype", ["quad4", "quad8", "quad9", "tri6", "hex20", "tet10"])
+def test_auto_preconditioner_is_the_element_one(etype):
+    """preconditioner="auto" is the element preconditioner for every type
+    (measured fastest in wall time, the serendipity types included, once
+    it is weighted by measure share), and a constant is reproduced."""
     mesh = box_mesh(etype, 2, 2, 2) if ELEMENTS[etype].dim == 3 else rectangle_mesh(etype, 3, 3)
     q = ELEMENTS[etype].rule("full").points.shape[0]
     field = GaussField(mesh, {etype: np.ones((mesh.ncells, q, 1))}, components=("s",))
     nodal = project_l2(field)
-    assert ELEMENTS[etype].projection_preconditioner == expected
-    assert nodal.info["preconditioner"] == expected
-    np.testing.assert_allclose(nodal.values, 1.0, atol=1e-9)       # a constant is reproduced either way
+    assert nodal.info["preconditioner"] == "element"
+    np.testing.assert_allclose(nodal.values, 1.0, atol=1e-9)

@@ -254,11 +254,6 @@ class ElementType:
                          order is VTK's, so no permutation is needed)
     plot_triangles : tuple of triples   local nodes of the sub-triangles that
                          draw a 2D cell (contours, mesh plots); empty in 3D
-    projection_preconditioner : str   what ``preconditioner="auto"`` of the L2
-                         projection uses on a mesh of this type only:
-                         ``"element"`` (fewer iterations) or ``"jacobi"``
-                         (serendipity types, where the element preconditioner
-                         saves iterations but not sparse products)
     """
 
     name: str
@@ -273,7 +268,6 @@ class ElementType:
     faces: tuple = ()
     vtk_cell_type: str
     plot_triangles: tuple = ()
-    projection_preconditioner: str = "element"
     _cache: dict = field(default_factory=dict, repr=False, compare=False)
 
     def __post_init__(self):
@@ -287,8 +281,6 @@ class ElementType:
         if any(len(t) != 3 or not all(0 <= a < len(nodes) for a in t) for t in tris):
             raise InputError(f"{self.name}: plot_triangles must be triples of local node numbers")
         object.__setattr__(self, "plot_triangles", tris)
-        if self.projection_preconditioner not in ("element", "jacobi"):
-            raise InputError(f"{self.name}: projection_preconditioner must be 'element' or 'jacobi'")
 
     # -- basic facts
     @property
@@ -449,8 +441,7 @@ def _build():
                     exponents=_total_exponents(2, 2) + [(2, 1), (1, 2)], ncorners=4,
                     full_rule_points=9, reduced_rule_points=4, mass_rule_points=9,
                     edges=qedges8, vtk_cell_type="quad8",
-                    plot_triangles=((0, 4, 7), (4, 1, 5), (5, 2, 6), (6, 3, 7), (4, 5, 7), (5, 6, 7)),
-                    projection_preconditioner="jacobi"),
+                    plot_triangles=((0, 4, 7), (4, 1, 5), (5, 2, 6), (6, 3, 7), (4, 5, 7), (5, 6, 7))),
         ElementType(name="quad9", shape="quad", nodes=qc + qm + [(0, 0)], exponents=_tensor_exponents(2, 2),
                     ncorners=4, full_rule_points=9, reduced_rule_points=4, mass_rule_points=9,
                     edges=qedges8, vtk_cell_type="quad9",
@@ -471,7 +462,7 @@ def _build():
                     exponents=[e for e in _tensor_exponents(2, 3) if _serendipity3(e)], ncorners=8,
                     full_rule_points=27, reduced_rule_points=8, mass_rule_points=64,
                     edges=tuple(e + (8 + i,) for i, e in enumerate(hedges)), faces=hfaces,
-                    vtk_cell_type="hexahedron20", projection_preconditioner="jacobi"),
+                    vtk_cell_type="hexahedron20"),
     ]
     return {et.name: et for et in types}
 

@@ -168,9 +168,8 @@ class L2Projector:
         self.diagonal = diag
         values = [matrices]
         if self.solver == "cg" and self.preconditioner == "element":
-            # cells' blocks Bu/|e| (Bu = unit_mass_inverse), rescaled s_a s_b with s = (diag P diag M)^(-1/2),
-            # assembled with C in the same pass
-            values.append(element_preconditioner([b.element for b in self.mesh.blocks], matrices, cell_dofs, diag))
+            # cells' blocks |e| Bu (Bu = unit_mass_inverse) weighted by measure share, assembled with C in one pass
+            values.append(element_preconditioner([b.element for b in self.mesh.blocks], matrices, cell_dofs, ndof))
         mats = assemble_many(cell_dofs, values, ndof, threads=self.threads)
         del matrices, values
         self.matrix = mats[0]
