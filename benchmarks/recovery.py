@@ -43,6 +43,7 @@ import numpy as np
 sys.path.insert(0, os.path.join(os.path.dirname(os.path.abspath(__file__)), os.pardir, "tests"))  # the skfem bridge
 
 COMPONENTS = ("sxx", "syy", "sxy")
+COMPONENTS_3D = ("sxx", "syy", "szz", "sxy", "syz", "sxz")
 MIB = 2.0 ** 20
 
 # label shown in the table for each method key
@@ -54,7 +55,7 @@ LABELS = {
     "skfem": "scikit-fem (asm + spsolve)",
     "loop": "element loop (asm + spsolve)",
     "loop_x": "element loop, EXTRAPOLATED",
-    "l2_graded": "project_l2, graded 100:1",
+    "l2_graded": "project_l2, graded 100:1, distorted",
     "l2_shuf_auto": "project_l2, shuffled, renumber='auto'",
     "l2_shuf_off": "project_l2, shuffled, renumber=False",
 }
@@ -100,8 +101,14 @@ def cells_for(side: int, etype: str) -> int:
 
 
 def stress_at(x, variant=0):
-    """Smooth analytic plane stress field (sxx, syy, sxy) at points x (..., 2)."""
+    """Smooth analytic stress field at points x: plane (sxx, syy, sxy) for
+    x (..., 2), six components for x (..., 3)."""
     X, Y = x[..., 0], x[..., 1]
+    if x.shape[-1] == 3:
+        Z = x[..., 2]
+        p = stress_at(x[..., :2], variant)
+        return np.stack([p[..., 0] + 10.0 * Z, p[..., 1], 25.0 * np.sin(2.0 * Z + X), p[..., 2],
+                         8.0 * Y * Z - 3.0, 12.0 * np.cos(1.3 * X - Z)], axis=-1)
     if variant == 0:
         return np.stack([120.0 + 60.0 * np.sin(2.3 * X) * np.cos(1.7 * Y) + 15.0 * X * Y,
                          -40.0 + 30.0 * np.cos(3.1 * X + 0.5 * Y),
@@ -113,18 +120,18 @@ def stress_at(x, variant=0):
 
 def build_mesh(etype, side, distort, seed, grading=None, shuffle=False):
     """rectangle_mesh of side x side squares (box_mesh of side^3 cubes for
-    the 3D types); optionally graded (2D only, no distortion then) or with
-    its node numbering randomly permuted.  Returns ``(mesh, new_of_old)``;
+    the 3D types); optionally graded along every axis (then distorted by a
+    share of the smaller neighbouring cell's size) or with its node
+    numbering randomly permuted.  Returns ``(mesh, new_of_old)``;
     ``new_of_old`` is None unless shuffled."""
     from toolkit import Mesh
     from toolkit.fem.models import box_mesh, rectangle_mesh
 
     if dim_of(etype) == 3:
-        if grading:
-            raise ValueError("no graded box meshes (box_mesh has no grading)")
-        mesh = box_mesh(etype, side, side, side, distort=distort, seed=seed)
+        mesh = box_mesh(etype, side, side, side, distort=distort, seed=seed,
+                        grading=(grading,) * 3 if grading else None)
     elif grading:
-        mesh = rectangle_mesh(etype, side, side, grading=(grading, grading))
+        mesh = rectangle_mesh(etype, side, side, distort=distort, seed=seed, grading=(grading, grading))
     else:
         mesh = rectangle_mesh(etype, side, side, distort=distort, seed=seed)
     if not shuffle:
@@ -143,8 +150,9 @@ def make_field(mesh, variant, seed):
     name = mesh.blocks[0].name
     x = mesh.geometry(name, "full").x_cqi
     rng = np.random.default_rng(seed + 1000 * variant)
-    V = stress_at(x, variant) + rng.normal(scale=3.0, size=x.shape[:2] + (len(COMPONENTS),))
-    return GaussField(mesh, {name: V}, COMPONENTS, points="full", name=f"stress{variant}")
+    comps = COMPONENTS_3D if mesh.dim == 3 else COMPONENTS
+    V = stress_at(x, variant) + rng.normal(scale=3.0, size=x.shape[:2] + (len(comps),))
+    return GaussField(mesh, {name: V}, comps, points="full", name=f"stress{variant}")
 
 
 # ---------------------------------------------------------------------------
@@ -491,6 +499,9 @@ def main(argv=None):
     ap.add_argument("--memory", choices=("rss", "tracemalloc"), default=None,
                     help="peak memory by resident-set rise (default where /proc/self/clear_refs works) or tracemalloc")
     ap.add_argument("--no-skfem", action="store_true", help="skip scikit-fem")
+    ap.add_argument("--skfem-max", default=None,
+                    help="largest element count at which scikit-fem runs (e.g. 200k; its direct solve of a large 3D "
+                         "mesh can take hours); default: every size")
     ap.add_argument("--no-loop", action="store_true", help="skip the per-element-loop implementation")
     ap.add_argument("--loop-sizes", default=None,
                     help="sizes at which the element loop really runs (default: the smallest); larger sizes "
@@ -528,8 +539,8 @@ def main(argv=None):
         print(line)
     print(f"memory  : {'peak resident-set rise (VmHWM reset via /proc/self/clear_refs, minus VmRSS before the call), fresh subprocess per measurement' if memory == 'rss' else 'tracemalloc peak (numpy tracked; C-library buffers such as SuperLU not counted), fresh subprocess per measurement'}")
     print(f"problem : rectangle_mesh side x side squares, distort={args.distort}, 3 stress components at the full rule "
-          f"+ element-wise noise (3D: box_mesh side^3 cubes, the same plane field of x and y); project_l2 defaults "
-          f"(block CG, preconditioner='auto': element, or Jacobi for quad8 and hex20; rtol 1e-10, renumber='auto')")
+          f"+ element-wise noise (3D: box_mesh side^3 cubes, 6 components); project_l2 defaults "
+          f"(block CG, preconditioner='auto' = 'element' for every type; rtol 1e-10, renumber='auto')")
     print(flush=True)
 
     tmp = tempfile.mkdtemp(prefix="stresspath_bench_")
@@ -542,12 +553,12 @@ def main(argv=None):
                 side = side_for(n, etype)
                 ncells = cells_for(side, etype)
                 methods = ["average", "l2", "l2_jacobi", "reused"]
-                if not args.no_skfem:
+                if not args.no_skfem and (args.skfem_max is None or ncells <= parse_size(args.skfem_max)):
                     methods.append("skfem")
                 if not args.no_loop and n in loop_sizes:
                     methods.append("loop")
                 if not args.no_extra:
-                    methods += (["l2_graded"] if dim_of(etype) == 2 else []) + ["l2_shuf_auto", "l2_shuf_off"]
+                    methods += ["l2_graded", "l2_shuf_auto", "l2_shuf_off"]
                 res = {}
                 for mth in methods:
                     save = os.path.join(tmp, f"{etype}_{side}_{mth}.npy") \
@@ -630,12 +641,21 @@ def print_tables(rows, memory, sizes):
         print()
 
     # CG iterations, uniform vs graded
-    print("CG iterations (block CG, default preconditioner, rtol 1e-10): distorted uniform mesh vs mesh graded 100:1 in x and y")
+    print("CG iterations (block CG, default preconditioner, rtol 1e-10): distorted uniform mesh vs mesh graded 100:1 "
+          "along every axis and distorted")
     for res in rows:
         u, g = res.get("l2", {}), res.get("l2_graded", {})
         if "iterations" in u or "iterations" in g:
             print(f"  {u.get('etype', g.get('etype')):<6} {u.get('elements', 0):>10,d}: uniform "
                   f"{fmt_iters(u.get('iterations')):>6}   graded {fmt_iters(g.get('iterations')):>6}")
+
+    # memory per cell
+    print("\nPeak memory of project_l2 per cell (linear in the mesh when the figure stays put as the size grows)")
+    for res in rows:
+        r = res.get("l2", {})
+        if "peak_mib" in r:
+            print(f"  {r['etype']:<6} {r['elements']:>10,d}: {r['peak_mib']:8.0f} MiB, "
+                  f"{r['peak_mib'] * MIB / r['elements'] / 1024:6.2f} KiB per cell")
 
     # shuffled numbering
     if any("l2_shuf_auto" in res for res in rows):

@@ -20,9 +20,10 @@ __all__ = ["rectangle_mesh", "box_mesh"]
 
 
 def _lattice(counts, lengths, origin, distort, seed, order, grading=None):
-    axes = []
+    axes, local = [], []
     for d, (n, L, o) in enumerate(zip(counts, lengths, origin)):
         t = np.linspace(0.0, 1.0, n * order + 1)
+        local.append(None)
         if grading is not None and grading[d] != 1.0:
             # geometric spacing between element boundaries, ratio last/first = grading
             g = grading[d]
@@ -31,6 +32,9 @@ def _lattice(counts, lengths, origin, distort, seed, order, grading=None):
             edges /= edges[-1]
             fine = np.linspace(0.0, 1.0, order + 1)[:-1]
             t = np.r_[(edges[:-1, None] + np.diff(edges)[:, None] * fine).ravel(), 1.0]
+            size = L * np.diff(edges)
+            near = np.minimum(np.r_[size[:1], size], np.r_[size, size[-1:]])   # smaller cell at each boundary
+            local[-1] = np.repeat(near, order)[:n * order + 1] if order > 1 else near
         axes.append(o + L * t)
     grids = np.meshgrid(*axes, indexing="ij")
     pts = np.stack([g.transpose(tuple(range(len(counts)))[::-1]).ravel() for g in grids], axis=-1)
@@ -45,7 +49,11 @@ def _lattice(counts, lengths, origin, distort, seed, order, grading=None):
         interior = np.all((idx > 0) & (idx < np.array(shape) - 1), axis=1)
         h = np.array(lengths) / np.array(counts)
         move = corner & interior
-        pts[move] += distort * h * rng.uniform(-0.5, 0.5, size=(move.sum(), len(counts)))
+        shift = distort * h * rng.uniform(-0.5, 0.5, size=(move.sum(), len(counts)))
+        for d, near in enumerate(local):        # graded axes: a share of the smaller neighbouring cell's size
+            if near is not None:
+                shift[:, d] *= near[idx[move, d]] / h[d]
+        pts[move] += shift
     return pts, shape
 
 
@@ -86,7 +94,9 @@ def rectangle_mesh(etype="quad4", nx=4, ny=4, size=(1.0, 1.0), origin=(0.0, 0.0)
 
     ``etype`` one of tri3, tri6, quad4, quad8, quad9 (triangles: two per
     square, split along the rising diagonal).  ``grading=(gx, gy)``: ratio of
-    the last to the first element size along each axis.  ``regions``: a
+    the last to the first element size along each axis (``distort`` then
+    moves each interior corner by a share of its smaller neighbouring cell's
+    size, so graded cells stay valid).  ``regions``: a
     callable of cell-centre coordinates (m, 2) returning region ids.
     """
     if etype not in ("tri3", "tri6", "quad4", "quad8", "quad9"):
@@ -122,13 +132,16 @@ def rectangle_mesh(etype="quad4", nx=4, ny=4, size=(1.0, 1.0), origin=(0.0, 0.0)
 
 
 def box_mesh(etype="hex8", nx=2, ny=2, nz=2, size=(1.0, 1.0, 1.0), origin=(0.0, 0.0, 0.0), distort=0.0,
-             seed=0):
+             seed=0, grading=None):
     """Structured mesh of a box; ``etype`` one of tet4, tet10, hex8, hex20
-    (tetrahedra: six per cube, Kuhn subdivision, all positively oriented)."""
+    (tetrahedra: six per cube, Kuhn subdivision, all positively oriented).
+    ``grading=(gx, gy, gz)``: ratio of the last to the first element size
+    along each axis; ``distort`` then moves each interior corner by a share
+    of its smaller neighbouring cell's size, so graded cells stay valid."""
     if etype not in ("tet4", "tet10", "hex8", "hex20"):
         raise InputError(f"box_mesh: etype must be a 3D type, got {etype!r}")
     o = get_element(etype).degree    # node intervals per cell edge on the lattice
-    pts, shape = _lattice((nx, ny, nz), size, origin, distort, seed, o)
+    pts, shape = _lattice((nx, ny, nz), size, origin, distort, seed, o, grading)
     idx = _number(shape)
     I, J, K = (a.ravel() * o for a in np.meshgrid(np.arange(nx), np.arange(ny), np.arange(nz), indexing="ij"))
     s = o  # lattice steps per element
