@@ -115,9 +115,9 @@ MUTANTS: list[Mutant] = [
       "tests/test_recovery.py", "tests/test_reference_skfem.py"),
     # -- projection solver
     M("precond-scaling", "toolkit/recovery/preconditioner.py",
-      "s = 1.0 / np.sqrt(sum_to_unknowns(cell_dofs, [P.diagonal() for P in blocks], len(diagonal)) * diagonal)",
-      "s = 1.0 / np.sqrt(sum_to_unknowns(cell_dofs, [P.diagonal() for P in blocks], len(diagonal)))",
-      "element preconditioner not rescaled to the mass matrix diagonal (s = diag(P)^-1/2)",
+      "s = 1.0 / around",
+      "s = 1.0 / np.sqrt(around * sum_to_unknowns(cell_dofs, [P.diagonal() for P in blocks], ndof))",
+      "element preconditioner rescaled to its own diagonal instead of weighted by measure share",
       "tests/test_linalg.py", "-k", "not wathen"),
     M("cg-update-sign", CG,
       "x += np.multiply(Pf[f], a, out=tt)",

@@ -1,7 +1,7 @@
 """The conjugate-gradient preconditioners of the L2 projection: the choice
 between them (:data:`PRECONDITIONERS`), the inverse unit mass matrix of an
 element type (:func:`unit_mass_inverse`) and the element preconditioner's
-cell blocks built from it, rescaled to the mass matrix diagonal."""
+cell blocks built from it, weighted by measure share."""
 from __future__ import annotations
 
 import numpy as np
@@ -17,14 +17,10 @@ def unit_mass_inverse(element) -> np.ndarray:
     """Inverse of the element type's mass matrix ``∫ N^T N dξ`` scaled to unit
     measure (k, k).
 
-    The conjugate-gradient preconditioner assembles ``R_e^T (this / |e|)
-    R_e`` over the cells: the exact inverse of every parallelogram (or
-    affine) cell's mass matrix, a close one otherwise, so it undoes the
-    within-cell coupling that a diagonal leaves behind.  Rescaled
-    symmetrically to the matrix diagonal (which repairs the boundary nodes,
-    where fewer cells meet), it brings the condition number from 9 to 1.8
-    for quad4 (4 to 1.6 tri3, 6.3 to 1.5 quad9, 5.3 to 1.9 tri6; 18 to 5.4
-    quad8), measured on uniform meshes.
+    ``this / |e|`` is the exact inverse of every parallelogram (or affine)
+    cell's mass matrix, a close one otherwise, so the element
+    preconditioner built from it (:func:`element_preconditioner`) undoes
+    the within-cell coupling that a diagonal leaves behind.
     """
     r = element.rule("mass")
     N = element.shape_functions(r.points)

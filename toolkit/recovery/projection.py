@@ -76,13 +76,12 @@ class L2Projector:
     solver : ``"cg"`` (default; preconditioned block CG) or ``"direct"``
         (sparse LU, factorised once).
     rtol : relative residual for ``"cg"`` (default 1e-10).
-    preconditioner : for ``"cg"``: ``"element"`` (assembled inverses of the
-        cells' unit mass matrices, rescaled to the matrix diagonal; see
-        :func:`~toolkit.recovery.preconditioner.unit_mass_inverse`),
+    preconditioner : for ``"cg"``: ``"element"`` (the cells' exact inverse
+        mass matrices at unit measure, assembled with weights by measure
+        share; see
+        :func:`~toolkit.recovery.preconditioner.element_preconditioner`),
         ``"jacobi"`` (the diagonal), or ``"auto"`` (default: ``"element"``,
-        except ``"jacobi"`` on meshes of serendipity elements (quad8,
-        hex20), where the element preconditioner saves iterations but not
-        sparse products).
+        measured fastest in wall time for every element type).
     renumber : ``"auto"`` (renumber in Z-order of the node positions when the
         numbering is scattered), ``True`` or ``False``.
     threads : threads for the assembly and the conjugate-gradient loop
