@@ -511,21 +511,30 @@ def main(argv=None) -> int:
 
 
 def _raise_interrupt(signum, frame):
+    from toolkit.workbook.execute import note_interrupt
+    note_interrupt()                 # remembered, in case a library swallows the KeyboardInterrupt
     raise KeyboardInterrupt
 
 
 class _sigterm_interrupts:
-    """SIGTERM raises KeyboardInterrupt while a command runs (so it cleans up
-    like Ctrl-C and exits 130); the previous handler is restored after."""
+    """SIGINT and SIGTERM raise KeyboardInterrupt while a command runs (so it
+    cleans up and exits 130) and are recorded, so a render whose
+    KeyboardInterrupt was swallowed inside a library still stops before its
+    report is installed; the previous handlers are restored after."""
+
+    SIGNALS = (signal.SIGINT, signal.SIGTERM)
 
     def __enter__(self):
+        from toolkit.workbook.execute import _INTERRUPTS
+        _INTERRUPTS.clear()              # a fresh command starts uninterrupted
         self.installed = threading.current_thread() is threading.main_thread()
         if self.installed:
-            self.old = signal.signal(signal.SIGTERM, _raise_interrupt)
+            self.old = {s: signal.signal(s, _raise_interrupt) for s in self.SIGNALS}
 
     def __exit__(self, *exc):
         if self.installed:
-            signal.signal(signal.SIGTERM, self.old if self.old is not None else signal.SIG_DFL)
+            for s, h in self.old.items():
+                signal.signal(s, h if h is not None else signal.SIG_DFL)
 
 
 def _run(args) -> int:

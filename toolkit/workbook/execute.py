@@ -439,15 +439,31 @@ def _check_targets(run: _Run, paths: dict):
                             f"it); choose another --out or move it")
 
 
+_INTERRUPTS = []        # interruptions asked for in this process (see note_interrupt)
+
+
+def note_interrupt():
+    """Record that the user asked to stop (called by the command line's
+    SIGINT/SIGTERM handler before it raises KeyboardInterrupt).  The
+    KeyboardInterrupt can be swallowed where it lands (a library's event
+    loop catching BaseException); the record is checked again before a
+    report is renamed into place, so an interrupted render never installs
+    its report."""
+    _INTERRUPTS.append(True)
+
+
 def _install(staged: dict, paths: dict):
     """Rename the staged report files into place, with SIGINT and SIGTERM held
-    back so an interruption cannot leave a mixed report."""
+    back so an interruption cannot leave a mixed report; an interruption
+    asked for earlier (:func:`note_interrupt`) stops it before anything moves."""
     import signal
 
     block = hasattr(signal, "pthread_sigmask")
     if block:
         old = signal.pthread_sigmask(signal.SIG_BLOCK, {signal.SIGINT, signal.SIGTERM})
     try:
+        if _INTERRUPTS:
+            raise KeyboardInterrupt
         for key, tmp in staged.items():
             os.replace(tmp, paths[key])
         paths["failed"].unlink(missing_ok=True)      # an earlier failure's notebook is now out of date
