@@ -113,3 +113,15 @@ def demo_bracket(case="pull"):
 
     mesh, cases = read_cases(DEMO_BRACKET)
     return mesh, cases[case]
+
+
+def render_refused_by_rule(tmp_path, capsys, workbook, given, rule):
+    """``render workbook --set given...`` exits 2 before running, with the one
+    line that names the broken ``rule`` (a workbook's cross-parameter check)."""
+    from toolkit.cli import main
+    argv = ["render", workbook, "--out", str(tmp_path / "out")]
+    for g in given:
+        argv += ["--set", g]
+    assert main(argv) == 2
+    err = capsys.readouterr().err
+    assert f"rule {rule!r} of {workbook}.ipynb does not hold" in err and err.count("\n") == 1

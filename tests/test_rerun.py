@@ -24,6 +24,7 @@ DATA = Path(__file__).resolve().parent / "data"
 TINY = DATA / "tiny.ipynb"
 DEMO = Path(__file__).resolve().parents[1] / "data" / "demo_bracket"
 FAILING = {"width": 40.0, "count": 4, "shape": "round"}
+from helpers import render_refused_by_rule
 
 
 @pytest.fixture(scope="module")
@@ -175,12 +176,7 @@ def test_input_problems_are_exit_2_before_any_kernel(tmp_path, capsys, no_kernel
     ("weld_toe", ["weld_leg=0.4", "element_size=0.25"], "element_size <= min(plate_thickness, weld_leg) / 2"),
 ])
 def test_shipped_workbooks_check_their_rules_before_running(tmp_path, capsys, no_kernel, workbook, given, rule):
-    argv = ["render", workbook, "--out", str(tmp_path / "out")]
-    for g in given:
-        argv += ["--set", g]
-    assert main(argv) == 2
-    err = capsys.readouterr().err
-    assert f"rule {rule!r} of {workbook}.ipynb does not hold" in err and err.count("\n") == 1
+    render_refused_by_rule(tmp_path, capsys, workbook, given, rule)
 
 
 # ---------------------------------------------------------------------------

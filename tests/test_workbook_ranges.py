@@ -20,6 +20,7 @@ from toolkit.fem.models import (plate_with_hole, plate_with_hole_sizes, shoulder
 from toolkit.report.steps import study_sizes
 from toolkit.workbook import workbook_parameters
 from toolkit.workbook.parameters import ParameterError, resolve_values
+from helpers import render_refused_by_rule
 
 
 # ---------------------------------------------------------------------------
@@ -186,12 +187,7 @@ def test_corner_renders(tmp_path, workbook, given):
     ("weld_toe", ["element_size=4.5"], "element_size <= min(plate_thickness, weld_leg) / 2"),
 ])
 def test_out_of_rule_combinations_exit_2_before_running(tmp_path, capsys, workbook, given, rule):
-    argv = ["render", workbook, "--out", str(tmp_path / "out")]
-    for g in given:
-        argv += ["--set", g]
-    assert main(argv) == 2
-    err = capsys.readouterr().err
-    assert f"rule {rule!r} of {workbook}.ipynb does not hold" in err and err.count("\n") == 1
+    render_refused_by_rule(tmp_path, capsys, workbook, given, rule)
     assert not (tmp_path / "out").exists() or not list((tmp_path / "out").glob("*.ipynb"))
 
 
