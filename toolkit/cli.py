@@ -525,8 +525,8 @@ class _sigterm_interrupts:
     SIGNALS = (signal.SIGINT, signal.SIGTERM)
 
     def __enter__(self):
-        from toolkit.workbook.execute import _INTERRUPTS
-        _INTERRUPTS.clear()              # a fresh command starts uninterrupted
+        from toolkit.workbook.execute import clear_interrupts
+        clear_interrupts()
         self.installed = threading.current_thread() is threading.main_thread()
         if self.installed:
             self.old = {s: signal.signal(s, _raise_interrupt) for s in self.SIGNALS}

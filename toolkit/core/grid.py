@@ -34,7 +34,7 @@ def _lattice(counts, lengths, origin, distort, seed, order, grading=None):
             t = np.r_[(edges[:-1, None] + np.diff(edges)[:, None] * fine).ravel(), 1.0]
             size = L * np.diff(edges)
             near = np.minimum(np.r_[size[:1], size], np.r_[size, size[-1:]])   # smaller cell at each boundary
-            local[-1] = np.repeat(near, order)[:n * order + 1] if order > 1 else near
+            local[-1] = np.repeat(near, order)[:n * order + 1]                   # per lattice index
         axes.append(o + L * t)
     grids = np.meshgrid(*axes, indexing="ij")
     pts = np.stack([g.transpose(tuple(range(len(counts)))[::-1]).ravel() for g in grids], axis=-1)

@@ -452,6 +452,11 @@ def note_interrupt():
     _INTERRUPTS.append(True)
 
 
+def clear_interrupts():
+    """Forget earlier interruptions (a new command starts uninterrupted)."""
+    _INTERRUPTS.clear()
+
+
 def _install(staged: dict, paths: dict):
     """Rename the staged report files into place, with SIGINT and SIGTERM held
     back so an interruption cannot leave a mixed report; an interruption
